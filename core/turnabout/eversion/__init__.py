@@ -1,0 +1,36 @@
+"""The corrugated sphere eversion (Thurston's corrugation method, 1974).
+
+Public API::
+
+    controls = Controls(strips=8)             # validated artistic controls
+    mesh = default_mesh(controls)             # SphereMesh sampled where the waves bend
+    P = evaluate(controls, times, mesh)       # (frames, V, 3) float64 positions
+    ev = build(controls, frames=120)          # Eversion: positions float32, faces, uv, times
+"""
+
+from .controls import (
+    MAX_STRIPS,
+    MIN_STRIPS,
+    STAGE_HELP,
+    STAGE_NAMES,
+    ControlError,
+    Controls,
+    default_depth,
+    depth_range,
+)
+from .build import Eversion, build, default_mesh, evaluate
+
+__all__ = [
+    "MAX_STRIPS",
+    "MIN_STRIPS",
+    "STAGE_HELP",
+    "STAGE_NAMES",
+    "ControlError",
+    "Controls",
+    "Eversion",
+    "build",
+    "default_depth",
+    "default_mesh",
+    "depth_range",
+    "evaluate",
+]
