@@ -148,7 +148,9 @@ def _check_positions(positions, name: str = "positions") -> np.ndarray:
 def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     pos = seq.positions
     if pos.ndim != 3 or pos.shape[-1] != 3:
-        raise MeshSequenceError(f"{source}: positions must be (frames, vertices, 3), got {pos.shape}")
+        raise MeshSequenceError(
+            f"{source}: positions must be (frames, vertices, 3), got {pos.shape}"
+        )
     if pos.shape[0] == 0:
         raise MeshSequenceError(f"{source}: no frames")
     if pos.shape[1] == 0:
@@ -171,7 +173,9 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
             f"(indices must be 0..{n - 1})"
         )
     if seq.uv is not None and seq.uv.shape != (n, 2):
-        raise MeshSequenceError(f"{source}: uv must be (vertices, 2) = ({n}, 2), got {seq.uv.shape}")
+        raise MeshSequenceError(
+            f"{source}: uv must be (vertices, 2) = ({n}, 2), got {seq.uv.shape}"
+        )
     if seq.times is not None:
         if seq.times.shape != (pos.shape[0],):
             raise MeshSequenceError(
@@ -271,10 +275,13 @@ def _npy_header(zf: zipfile.ZipFile, info: zipfile.ZipInfo, source: str):
             else:
                 raise ValueError(f"unsupported npy version {version}")
         except ValueError as exc:
-            raise MeshSequenceError(f"{source}: member {info.filename!r} is not a valid .npy array ({exc})") from None
+            raise MeshSequenceError(
+                f"{source}: member {info.filename!r} is not a valid .npy array ({exc})"
+            ) from None
     if dtype.hasobject:
         raise MeshSequenceError(
-            f"{source}: member {info.filename!r} holds Python objects; only numeric arrays are allowed"
+            f"{source}: member {info.filename!r} holds Python objects; "
+            "only numeric arrays are allowed"
         )
     return tuple(int(s) for s in shape), dtype
 
@@ -296,7 +303,9 @@ def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
             f"{source}: not a readable .npz archive ({exc}); the file may be truncated"
         ) from None
     with zf:
-        infos = {i.filename[:-4] if i.filename.endswith(".npy") else i.filename: i for i in zf.infolist()}
+        infos = {
+            i.filename[:-4] if i.filename.endswith(".npy") else i.filename: i for i in zf.infolist()
+        }
         missing = [m for m in ("positions", "faces") if m not in infos]
         if missing:
             raise MeshSequenceError(
@@ -311,7 +320,9 @@ def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
         if len(pshape) == 2 and pshape[-1] == 3:
             pshape = (1, *pshape)
         if len(pshape) != 3 or pshape[-1] != 3:
-            raise MeshSequenceError(f"{source}: positions must be (frames, vertices, 3), got {pshape}")
+            raise MeshSequenceError(
+                f"{source}: positions must be (frames, vertices, 3), got {pshape}"
+            )
         if len(fshape) != 2 or fshape[-1] != 3:
             raise MeshSequenceError(f"{source}: faces must be (M, 3) triangles, got {fshape}")
         if pdtype.kind != "f" or fdtype.kind not in "iu":
@@ -322,10 +333,13 @@ def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
         if n_f > limits.max_frames or n_v > limits.max_vertices or fshape[0] > limits.max_faces:
             raise MeshSequenceError(
                 f"{source}: {n_f} frames x {n_v} vertices, {fshape[0]} faces exceeds the limits "
-                f"({limits.max_frames} frames, {limits.max_vertices} vertices, {limits.max_faces} faces)"
+                f"({limits.max_frames} frames, {limits.max_vertices} vertices, "
+                f"{limits.max_faces} faces)"
             )
         if n_f * n_v * 3 * 4 > limits.max_total_bytes:
-            raise MeshSequenceError(f"{source}: positions would need more than {limits.max_total_bytes} bytes")
+            raise MeshSequenceError(
+                f"{source}: positions would need more than {limits.max_total_bytes} bytes"
+            )
         for name, (shape, dtype) in headers.items():
             need = int(np.prod(shape, dtype=np.int64)) * dtype.itemsize
             if infos[name].file_size < need:
@@ -340,11 +354,15 @@ def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
             uv = np.asarray(data["uv"], dtype=np.float32) if "uv" in data.files else None
             times = np.asarray(data["times"], dtype=np.float64) if "times" in data.files else None
     except (ValueError, OSError, zipfile.BadZipFile, EOFError) as exc:
-        raise MeshSequenceError(f"{source}: cannot load arrays ({exc}); the file may be truncated") from None
+        raise MeshSequenceError(
+            f"{source}: cannot load arrays ({exc}); the file may be truncated"
+        ) from None
     if positions.ndim == 2:
         positions = positions[None]
     if faces.size and (faces.min() < 0 or faces.max() > np.iinfo(np.int32).max):
-        raise MeshSequenceError(f"{source}: face indices out of range (min {faces.min()}, max {faces.max()})")
+        raise MeshSequenceError(
+            f"{source}: face indices out of range (min {faces.min()}, max {faces.max()})"
+        )
     faces = faces.astype(np.int32)
     seq = MeshSequence(positions=positions, faces=faces, polygons=list(faces), uv=uv, times=times)
     return _validate(seq, source)
@@ -383,9 +401,7 @@ def _obj_face_block(polys: list[np.ndarray], with_uv: bool) -> bytes:
     return ("\n".join(lines) + "\n").encode("ascii")
 
 
-def write_obj_sequence(
-    folder, positions, faces, uv=None, *, prefix: str = "frame_"
-) -> list[Path]:
+def write_obj_sequence(folder, positions, faces, uv=None, *, prefix: str = "frame_") -> list[Path]:
     """Write one OBJ file per frame, ``<prefix>0000.obj`` ... into ``folder``.
 
     positions : (F, V, 3); faces : (M, 3) int or a list of polygons; uv : optional (V, 2).
@@ -472,7 +488,9 @@ def _parse_obj_faces(path: Path, flines: list[str], n_verts: int, n_uv: int, lim
                 vi = int(parts[0])
                 ti = int(parts[1]) if len(parts) > 1 and parts[1] else None
             except ValueError:
-                raise MeshSequenceError(f"{path}: face {k} has a malformed corner {tok!r}") from None
+                raise MeshSequenceError(
+                    f"{path}: face {k} has a malformed corner {tok!r}"
+                ) from None
             vi = vi - 1 if vi > 0 else n_verts + vi
             if vi < 0 or vi >= n_verts:
                 raise MeshSequenceError(
@@ -524,7 +542,9 @@ def read_obj_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
     else:
         files = [Path(p) for p in paths]
     if len(files) > limits.max_frames:
-        raise MeshSequenceError(f"{len(files)} OBJ files exceed the limit of {limits.max_frames} frames")
+        raise MeshSequenceError(
+            f"{len(files)} OBJ files exceed the limit of {limits.max_frames} frames"
+        )
     verts0, flines0, uv0 = _parse_obj(files[0], limits)
     n = verts0.shape[0]
     if len(files) * n * 12 > limits.max_total_bytes:
@@ -722,7 +742,9 @@ def _read_ply_ascii(path, elements, lines):
         try:
             if el.name == "vertex":
                 if any(p[2] is not None for p in el.props):
-                    raise MeshSequenceError(f"{path}: list properties in vertices are not supported")
+                    raise MeshSequenceError(
+                        f"{path}: list properties in vertices are not supported"
+                    )
                 names = [p[0] for p in el.props]
                 table = np.array([r.split() for r in rows], dtype=np.float64)
                 if table.ndim != 2 or table.shape[1] != len(names):
@@ -814,7 +836,9 @@ def read_ply_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
     else:
         files = [Path(p) for p in paths]
     if len(files) > limits.max_frames:
-        raise MeshSequenceError(f"{len(files)} PLY files exceed the limit of {limits.max_frames} frames")
+        raise MeshSequenceError(
+            f"{len(files)} PLY files exceed the limit of {limits.max_frames} frames"
+        )
     verts0, faces0 = _read_ply(files[0], limits)
     n = verts0.shape[0]
     if len(files) * n * 12 > limits.max_total_bytes:
@@ -910,7 +934,9 @@ def read_sequence(
     if path.is_dir():
         exts = {p.suffix.lower() for p in path.iterdir() if p.is_file()}
         if ".obj" in exts and ".ply" in exts:
-            raise MeshSequenceError(f"{path}: holds both .obj and .ply files; use one format per folder")
+            raise MeshSequenceError(
+                f"{path}: holds both .obj and .ply files; use one format per folder"
+            )
         if ".obj" in exts:
             seq = read_obj_sequence(path, limits=limits)
         elif ".ply" in exts:
