@@ -1,0 +1,476 @@
+"""Bake an eversion from the core into native Blender animation.
+
+Two ways to store it, both playing and rendering with the add-on uninstalled:
+
+* shape keys: absolute keys (``use_relative = False``) with linear key interpolation,
+  driven by one LINEAR F-curve on ``Key.eval_time``; a key every ``key_step`` frames,
+  the frames between blended linearly;
+* point cache: a PC2 file with one sample per frame, read by a Mesh Cache modifier
+  (a small .blend for long shots).
+
+Re-building replaces the object's mesh in place and frees the old mesh, its shape
+keys and their action, so no orphan data is left behind.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+from dataclasses import dataclass
+
+import bpy
+import numpy as np
+from bpy.props import StringProperty
+
+PROP_TAG = "turnabout"  # object custom property holding the build settings (JSON)
+ACTION_SUFFIX = " eval time"
+MODIFIER_NAME = "Turnabout cache"
+GUIDE_ATTRIBUTE = "turnabout_guide"
+PC2_HEADER = b"POINTCACHE2\0"
+
+
+class BakeError(ValueError):
+    """A bake request that cannot be carried out; the message says why and what is allowed."""
+
+
+@dataclass(frozen=True)
+class BakePlan:
+    """What to bake: the validated controls, the sphere mesh, and the frame layout.
+
+    key_offsets : (K,) int64, frame offsets from ``frame_start`` of the stored shapes
+    times : (K,) float64, eversion time in [0, 1] of each stored shape
+    """
+
+    controls: object
+    mesh: object
+    frames: int
+    frame_start: int
+    key_step: int
+    mode: str
+    key_offsets: np.ndarray
+    times: np.ndarray
+
+    @property
+    def n_keys(self) -> int:
+        return int(self.key_offsets.shape[0])
+
+    @property
+    def n_vertices(self) -> int:
+        return int(self.mesh.n_vertices)
+
+
+def key_offsets_for(frames: int, key_step: int) -> np.ndarray:
+    """Frame offsets of the stored shapes: every ``key_step`` frames plus the last frame."""
+    offsets = np.arange(0, frames, key_step, dtype=np.int64)
+    if offsets[-1] != frames - 1:
+        offsets = np.append(offsets, frames - 1)
+    return offsets
+
+
+def plan_bake(controls, frames=120, frame_start=1, key_step=1, mesh=None, mode="SHAPE_KEYS"):
+    """Check the frame layout and pick the mesh; raises BakeError naming the bad value."""
+    from turnabout.eversion import default_mesh
+
+    if isinstance(frames, bool) or int(frames) != frames or frames < 2:
+        raise BakeError(f"frames: must be an integer of at least 2, got {frames!r}")
+    if isinstance(key_step, bool) or int(key_step) != key_step or key_step < 1:
+        raise BakeError(f"key step: must be an integer of at least 1, got {key_step!r}")
+    if mode not in ("SHAPE_KEYS", "POINT_CACHE"):
+        raise BakeError(f"store as: must be SHAPE_KEYS or POINT_CACHE, got {mode!r}")
+    frames, key_step = int(frames), int(key_step)
+    if mode == "POINT_CACHE":
+        key_step = 1  # the cache holds one sample per frame
+    mesh = default_mesh(controls) if mesh is None else mesh
+    offsets = key_offsets_for(frames, key_step)
+    return BakePlan(
+        controls, mesh, frames, int(frame_start), key_step, mode, offsets, offsets / (frames - 1)
+    )
+
+
+def mesh_from_settings(controls, n_lon: int, n_lat: int):
+    """The sphere mesh for the given resolution; 0 keeps the construction's default."""
+    from turnabout.eversion import default_mesh
+
+    if (n_lon and n_lon < 3) or n_lat < 0:
+        raise BakeError(
+            f"mesh resolution: needs at least 3 longitude samples, got {n_lon} x {n_lat}"
+        )
+    return default_mesh(controls, n_lon=n_lon or None, n_lat=n_lat or None)
+
+
+# Point-cache bakes evaluate this many frames at a time.
+CACHE_CHUNK = 16
+
+
+def estimated_bytes(plan: BakePlan) -> int:
+    """Peak memory of the bake in bytes (core float64 evaluation plus float32 storage)."""
+    per_shape = plan.n_vertices * 3 * (8 + 4)
+    if plan.mode == "POINT_CACHE":
+        held = min(plan.n_keys, CACHE_CHUNK)
+        return held * per_shape
+    # evaluated block + Blender's own copy in the key blocks
+    return plan.n_keys * (per_shape + plan.n_vertices * 3 * 4)
+
+
+def refuse_if_too_big(plan: BakePlan, limit_mb: float) -> int:
+    """Raise BakeError with the figure when the estimate exceeds ``limit_mb``; return the bytes."""
+    need = estimated_bytes(plan)
+    if need > limit_mb * 1e6:
+        raise BakeError(
+            f"baking would need about {need / 1e6:.0f} MB ({plan.n_keys} shapes x "
+            f"{plan.n_vertices} vertices), over the memory limit of {limit_mb:.0f} MB; "
+            "key less often, use a coarser mesh, store as a point cache or raise the limit"
+        )
+    return need
+
+
+# ----------------------------------------------------------------------------- mesh
+
+
+def new_sphere_mesh(name: str, sphere, first_positions: np.ndarray, strips: int):
+    """A Blender mesh with the sphere's quads and pole triangles at ``first_positions``.
+
+    first_positions : (V, 3) float32. Adds a UV map and a face attribute ``turnabout_guide``
+    (1.0 on every other strip, 0.0 elsewhere) for the strip tint.
+    """
+    quads, tris = sphere.polygons()
+    n_v = sphere.n_vertices
+    loops = np.concatenate([quads.ravel(), tris.ravel()]).astype(np.int32)
+    sizes = np.concatenate([np.full(len(quads), 4), np.full(len(tris), 3)])
+    starts = np.concatenate([[0], np.cumsum(sizes)[:-1]]).astype(np.int32)
+
+    me = bpy.data.meshes.new(name)
+    me.vertices.add(n_v)
+    me.vertices.foreach_set("co", np.ascontiguousarray(first_positions, np.float32).ravel())
+    me.loops.add(len(loops))
+    me.loops.foreach_set("vertex_index", loops)
+    me.polygons.add(len(sizes))
+    me.polygons.foreach_set("loop_start", starts)
+    me.update(calc_edges=True)
+    me.polygons.foreach_set("use_smooth", np.ones(len(sizes), bool))
+
+    uv = sphere.uv()
+    layer = me.uv_layers.new(name="UVMap")
+    layer.data.foreach_set("uv", uv[loops].ravel())
+
+    # strip index from each face's longitude cell: quads run ring by ring, then the fans
+    n_lon = sphere.n_lon
+    cell = np.concatenate([np.arange(len(quads)) % n_lon, np.arange(len(tris)) % n_lon])
+    guide = ((cell * 2 * strips) // n_lon) % 2 == 0
+    attr = me.attributes.new(GUIDE_ATTRIBUTE, "FLOAT", "FACE")
+    attr.data.foreach_set("value", guide.astype(np.float32))
+    me.update()
+    return me
+
+
+def _set_fcurve(action, datablock, data_path: str, frames: np.ndarray, values: np.ndarray):
+    """One LINEAR F-curve on ``data_path`` through (frames, values), replacing any earlier one."""
+    if hasattr(action, "fcurve_ensure_for_datablock"):  # Blender 4.4+
+        fc = action.fcurve_ensure_for_datablock(datablock, data_path)
+        fc.keyframe_points.clear()
+    else:  # pragma: no cover - Blender 4.2/4.3
+        old = action.fcurves.find(data_path)
+        if old is not None:
+            action.fcurves.remove(old)
+        fc = action.fcurves.new(data_path)
+    n = len(frames)
+    fc.keyframe_points.add(n)
+    co = np.stack([np.asarray(frames, np.float32), np.asarray(values, np.float32)], axis=-1)
+    fc.keyframe_points.foreach_set("co", co.ravel())
+    fc.keyframe_points.foreach_set("interpolation", np.ones(n, np.int32))  # LINEAR
+    fc.update()
+    return fc
+
+
+def _write_shape_keys(ob, plan: BakePlan, positions: np.ndarray, progress) -> None:
+    """Absolute shape keys, one per stored shape, and the LINEAR eval_time F-curve."""
+    total = 2 * plan.n_keys
+    basis = ob.shape_key_add(name="Basis", from_mix=False)
+    basis.points.foreach_set("co", positions[0].ravel())
+    blocks = [basis]
+    for k in range(1, plan.n_keys):
+        kb = ob.shape_key_add(
+            name=f"frame {plan.frame_start + int(plan.key_offsets[k])}", from_mix=False
+        )
+        kb.points.foreach_set("co", positions[k].ravel())
+        blocks.append(kb)
+        progress(plan.n_keys + k + 1, total)
+    key = ob.data.shape_keys
+    key.use_relative = False
+    for kb in blocks:
+        kb.interpolation = "KEY_LINEAR"
+    positions_on_axis = np.array([kb.frame for kb in blocks], np.float64)
+    key.animation_data_create()
+    action = bpy.data.actions.new(ob.name + ACTION_SUFFIX)
+    key.animation_data.action = action
+    _set_fcurve(action, key, "eval_time", plan.frame_start + plan.key_offsets, positions_on_axis)
+    key.eval_time = float(positions_on_axis[0])
+
+
+def write_pc2(path: str, chunks, n_points: int, n_samples: int, start: float = 0.0) -> None:
+    """Write a PC2 point cache from an iterable of (k, n_points, 3) float32 blocks.
+
+    Layout (little-endian): the 12-byte signature, int32 version 1, int32 points,
+    float32 start, float32 sampling rate, int32 samples; then float32 xyz per point per
+    sample. Written to a temporary file in the same folder, then renamed.
+    """
+    folder = os.path.dirname(os.path.abspath(path))
+    fd, tmp = tempfile.mkstemp(suffix=".pc2.part", dir=folder)
+    written = 0
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(PC2_HEADER)
+            fh.write(np.array([1, n_points], "<i4").tobytes())
+            fh.write(np.array([start, 1.0], "<f4").tobytes())
+            fh.write(np.array([n_samples], "<i4").tobytes())
+            for block in chunks:
+                fh.write(np.ascontiguousarray(block, "<f4").tobytes())
+                written += len(block)
+        if written != n_samples:
+            raise BakeError(f"point cache: wrote {written} samples, expected {n_samples}")
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise
+
+
+def cache_path_for(ob_name: str, cache_dir: str) -> str:
+    """Absolute path of the object's PC2 file; BakeError when the folder cannot be resolved."""
+    if cache_dir.startswith("//") and not bpy.data.filepath:
+        raise BakeError(
+            "cache folder: a path relative to the .blend ('//') needs the .blend saved first; "
+            "save it or choose an absolute folder"
+        )
+    folder = bpy.path.abspath(cache_dir)
+    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in ob_name)
+    return os.path.join(folder, f"{safe}.pc2")
+
+
+def _ensure_writable_folder(folder: str, what: str) -> None:
+    try:
+        os.makedirs(folder, exist_ok=True)
+        fd, probe = tempfile.mkstemp(dir=folder, suffix=".probe")
+        os.close(fd)
+        os.remove(probe)
+    except OSError as exc:
+        raise BakeError(f"{what}: cannot write to {folder!r} ({exc.strerror or exc})") from None
+
+
+def _free_mesh(me) -> None:
+    """Remove a mesh no longer used, with its shape keys' action."""
+    key = me.shape_keys
+    if key is not None and key.animation_data is not None:
+        action = key.animation_data.action
+        key.animation_data.action = None
+        if action is not None and action.users == 0:
+            bpy.data.actions.remove(action)
+    if me.users == 0:
+        bpy.data.meshes.remove(me)
+
+
+def is_eversion_object(ob) -> bool:
+    return ob is not None and ob.type == "MESH" and PROP_TAG in ob
+
+
+def bake_eversion(
+    scene,
+    plan: BakePlan,
+    ob=None,
+    name: str = "Eversion",
+    memory_limit_mb: float = 4096.0,
+    cache_dir: str = "//turnabout_cache/",
+    progress=None,
+):
+    """Bake ``plan`` into ``ob`` (re-built in place) or into a new object linked to ``scene``.
+
+    Everything that can be refused (memory, cache folder) is checked before any Blender
+    data is made; on an error the file is left as it was. Returns the object.
+    """
+    from turnabout.eversion import evaluate
+    from turnabout.progress import no_progress
+
+    progress = progress or no_progress
+    refuse_if_too_big(plan, memory_limit_mb)
+    ob_name = ob.name if ob is not None else name
+    pc2 = None
+    if plan.mode == "POINT_CACHE":
+        pc2 = cache_path_for(ob_name, cache_dir)
+        _ensure_writable_folder(os.path.dirname(pc2), "cache folder")
+
+    total = 2 * plan.n_keys
+    if plan.mode == "SHAPE_KEYS":
+        positions = evaluate(
+            plan.controls,
+            plan.times,
+            plan.mesh,
+            progress=lambda d, t: progress(d, total),
+        ).astype(np.float32)
+        first = positions[0]
+    else:
+        first = evaluate(plan.controls, plan.times[:1], plan.mesh)[0].astype(np.float32)
+
+        def chunks():
+            for a in range(0, plan.n_keys, CACHE_CHUNK):
+                block = evaluate(plan.controls, plan.times[a : a + CACHE_CHUNK], plan.mesh)
+                progress(min(a + CACHE_CHUNK, plan.n_keys) * 2, total)
+                yield block.astype(np.float32)
+
+        write_pc2(pc2, chunks(), plan.n_vertices, plan.n_keys)
+
+    # --- from here on Blender data is created
+    me = new_sphere_mesh(ob_name, plan.mesh, first, plan.controls.strips)
+    if ob is None:
+        ob = bpy.data.objects.new(ob_name, me)
+        scene.collection.objects.link(ob)
+    else:
+        old = ob.data
+        for mat in old.materials:
+            me.materials.append(mat)
+        for mod in [m for m in ob.modifiers if m.type == "MESH_CACHE" and m.name == MODIFIER_NAME]:
+            ob.modifiers.remove(mod)
+        ob.data = me
+        old_name = old.name
+        _free_mesh(old)
+        me.name = old_name
+    if plan.mode == "SHAPE_KEYS":
+        _write_shape_keys(ob, plan, positions, progress)
+    else:
+        mod = ob.modifiers.new(MODIFIER_NAME, "MESH_CACHE")
+        mod.cache_format = "PC2"
+        mod.filepath = bpy.path.relpath(pc2) if bpy.data.filepath else pc2
+        mod.time_mode = "FRAME"
+        mod.play_mode = "SCENE"
+        mod.frame_start = float(plan.frame_start)
+        mod.frame_scale = 1.0
+        mod.interpolation = "LINEAR"
+        progress(total, total)
+    ob[PROP_TAG] = json.dumps(
+        {
+            "controls": plan.controls.as_dict(),
+            "frames": plan.frames,
+            "frame_start": plan.frame_start,
+            "key_step": plan.key_step,
+            "mode": plan.mode,
+            "mesh": [plan.mesh.n_lon, plan.mesh.n_lat],
+        }
+    )
+    return ob
+
+
+def set_scene_range(scene, plan: BakePlan) -> None:
+    scene.frame_start = plan.frame_start
+    scene.frame_end = plan.frame_start + plan.frames - 1
+
+
+# ----------------------------------------------------------------------------- operators
+
+
+def _plan_from_scene(scene):
+    from .props import controls_from_settings
+
+    s = scene.turnabout
+    controls = controls_from_settings(s)
+    mesh = mesh_from_settings(controls, s.mesh_lon, s.mesh_lat)
+    return plan_bake(controls, s.frames, s.frame_start, s.key_step, mesh, s.bake_mode)
+
+
+def _run_bake(op, context, target):
+    from turnabout.progress import Cancelled
+
+    from . import look
+
+    scene = context.scene
+    s = scene.turnabout
+    wm = context.window_manager
+    try:
+        plan = _plan_from_scene(scene)
+        wm.progress_begin(0, 2 * plan.n_keys)
+        try:
+            ob = bake_eversion(
+                scene,
+                plan,
+                ob=target,
+                name="Eversion",
+                memory_limit_mb=s.memory_limit_mb,
+                cache_dir=s.cache_dir,
+                progress=lambda d, t: wm.progress_update(d),
+            )
+        finally:
+            wm.progress_end()
+    except (ValueError, OSError, Cancelled) as exc:  # ControlError and BakeError are ValueErrors
+        op.report({"ERROR"}, str(exc))
+        return {"CANCELLED"}
+    look.apply_look(ob, s)
+    set_scene_range(scene, plan)
+    if target is None:
+        ob.location = scene.cursor.location
+        for other in context.selected_objects:
+            other.select_set(False)
+        context.view_layer.objects.active = ob
+        ob.select_set(True)
+    op.report(
+        {"INFO"}, f"Baked {plan.frames} frames ({plan.n_keys} shapes, {plan.n_vertices} vertices)"
+    )
+    return {"FINISHED"}
+
+
+class TURNABOUT_OT_add_eversion(bpy.types.Operator):
+    """Add a sphere that turns inside out, baked as native animation"""
+
+    bl_idname = "turnabout.add_eversion"
+    bl_label = "Everting Sphere"
+    bl_options = {"REGISTER", "UNDO"}
+
+    def execute(self, context):
+        return _run_bake(self, context, None)
+
+
+class TURNABOUT_OT_rebuild(bpy.types.Operator):
+    """Re-bake the active eversion with the current settings, in place"""
+
+    bl_idname = "turnabout.rebuild"
+    bl_label = "Re-build Eversion"
+    bl_options = {"REGISTER", "UNDO"}
+
+    target: StringProperty(name="Object", description="Object to re-build (default: active)")
+
+    @classmethod
+    def poll(cls, context):
+        return is_eversion_object(context.active_object)
+
+    def execute(self, context):
+        ob = bpy.data.objects.get(self.target) if self.target else context.active_object
+        if not is_eversion_object(ob):
+            self.report({"ERROR"}, "re-build: the active object is not a Turnabout eversion")
+            return {"CANCELLED"}
+        return _run_bake(self, context, ob)
+
+
+class TURNABOUT_OT_load_settings(bpy.types.Operator):
+    """Copy the active eversion's build settings into the panel"""
+
+    bl_idname = "turnabout.load_settings"
+    bl_label = "Load Settings From Object"
+    bl_options = {"REGISTER", "UNDO"}
+
+    @classmethod
+    def poll(cls, context):
+        return is_eversion_object(context.active_object)
+
+    def execute(self, context):
+        data = json.loads(context.active_object[PROP_TAG])
+        s = context.scene.turnabout
+        c = data["controls"]
+        s.strips = c["strips"]
+        s.depth = c["depth"]
+        for stage, (a, b) in c["timing"].items():
+            setattr(s, f"{stage}_start", a)
+            setattr(s, f"{stage}_end", b)
+        s.frames, s.frame_start, s.key_step = data["frames"], data["frame_start"], data["key_step"]
+        s.bake_mode = data["mode"]
+        return {"FINISHED"}
+
+
+CLASSES = (TURNABOUT_OT_add_eversion, TURNABOUT_OT_rebuild, TURNABOUT_OT_load_settings)

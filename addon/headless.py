@@ -1,0 +1,299 @@
+"""Scenes and renders without the interface: camera, light, material, baked eversion.
+
+Used by the ``turnabout scene`` / ``render`` / ``demo`` commands, through the bpy module
+or inside ``blender -b -P addon/run_headless.py -- ...``.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import tempfile
+from types import SimpleNamespace
+
+import bpy
+import numpy as np
+
+from . import bake, look
+from .props import GUIDE_TINT, INNER_COLOUR, OUTER_COLOUR
+
+CAMERA_NAME = "Turnabout camera"
+LIGHT_NAME = "Turnabout key light"
+FILL_NAME = "Turnabout fill light"
+ENGINES = {"cycles": "CYCLES", "workbench": "BLENDER_WORKBENCH"}
+
+
+class HeadlessError(ValueError):
+    """Bad command-line input; the message names it and what is allowed."""
+
+
+def ensure_registered() -> None:
+    """Register the add-on's classes once per process (for its settings and operators)."""
+    if not hasattr(bpy.types.Scene, "turnabout"):
+        from . import register
+
+        register()
+
+
+def empty_file() -> None:
+    bpy.ops.wm.read_homefile(use_empty=True, use_factory_startup=True)
+    ensure_registered()
+
+
+def look_settings(outer=OUTER_COLOUR, inner=INNER_COLOUR, strips=False, tint=GUIDE_TINT):
+    return SimpleNamespace(
+        outer_colour=tuple(outer),
+        inner_colour=tuple(inner),
+        colour_strips=bool(strips),
+        guide_tint=tuple(tint),
+    )
+
+
+def add_stage(scene, distance: float = 4.6, height: float = 1.2):
+    """Camera aimed at the origin, a key and a fill light, a dark neutral world."""
+    from mathutils import Vector
+
+    cam_data = bpy.data.cameras.get(CAMERA_NAME) or bpy.data.cameras.new(CAMERA_NAME)
+    cam_data.lens = 50.0
+    cam = bpy.data.objects.get(CAMERA_NAME)
+    if cam is None:
+        cam = bpy.data.objects.new(CAMERA_NAME, cam_data)
+        scene.collection.objects.link(cam)
+    cam.location = (0.0, -distance, height)
+    aim = Vector((0.0, 0.0, 0.0)) - Vector(cam.location)
+    cam.rotation_euler = aim.to_track_quat("-Z", "Y").to_euler()
+    scene.camera = cam
+
+    for name, loc, energy, size in (
+        (LIGHT_NAME, (3.0, -4.0, 5.0), 900.0, 2.0),
+        (FILL_NAME, (-4.5, -2.0, 1.0), 250.0, 4.0),
+    ):
+        data = bpy.data.lights.get(name) or bpy.data.lights.new(name, "AREA")
+        data.energy = energy
+        data.size = size
+        ob = bpy.data.objects.get(name)
+        if ob is None:
+            ob = bpy.data.objects.new(name, data)
+            scene.collection.objects.link(ob)
+        ob.location = loc
+        ob.rotation_euler = (Vector((0, 0, 0)) - Vector(loc)).to_track_quat("-Z", "Y").to_euler()
+
+    world = scene.world or bpy.data.worlds.new("Turnabout world")
+    scene.world = world
+    if getattr(world, "node_tree", None) is None:
+        world.use_nodes = True
+    bg = next((n for n in world.node_tree.nodes if n.type == "BACKGROUND"), None)
+    if bg is not None:
+        bg.inputs[0].default_value = (0.03, 0.03, 0.03, 1.0)
+        bg.inputs[1].default_value = 1.0
+    world.color = (0.03, 0.03, 0.03)
+    return cam
+
+
+def configure_render(
+    scene, engine: str = "cycles", size=(320, 240), samples: int = 16, transparent: bool = True
+) -> None:
+    """Render settings: Cycles on the CPU (default) or Workbench, PNG RGBA at ``size``."""
+    if engine not in ENGINES:
+        raise HeadlessError(f"engine: must be one of {', '.join(ENGINES)}, got {engine!r}")
+    w, h = size
+    if not (8 <= w <= 16384 and 8 <= h <= 16384):
+        raise HeadlessError(f"size: width and height must be 8-16384 pixels, got {w}x{h}")
+    if samples < 1:
+        raise HeadlessError(f"samples: must be at least 1, got {samples}")
+    r = scene.render
+    r.engine = ENGINES[engine]
+    r.resolution_x, r.resolution_y, r.resolution_percentage = int(w), int(h), 100
+    r.film_transparent = transparent
+    r.image_settings.file_format = "PNG"
+    r.image_settings.color_mode = "RGBA"
+    r.use_file_extension = False
+    scene.view_settings.view_transform = "Standard"  # the side colours as chosen
+    if engine == "cycles":
+        scene.cycles.device = "CPU"
+        scene.cycles.samples = int(samples)
+        scene.cycles.use_denoising = False
+        scene.cycles.use_adaptive_sampling = False
+        scene.cycles.max_bounces = 4
+    else:
+        shading = scene.display.shading
+        shading.light = "STUDIO"
+        shading.color_type = "MATERIAL"
+
+
+FRAME_SPEC = re.compile(r"^\s*(-?\d+)(?:\s*-\s*(-?\d+)(?::(\d+))?)?\s*$")
+
+
+def parse_frames(spec: str, default_range: tuple[int, int] | None = None) -> list[int]:
+    """Frames from ``"1-120"``, ``"1,5,9"``, ``"1-120:10"`` (every 10th) or combinations.
+
+    Returns the sorted unique frames; HeadlessError on bad syntax or an empty selection.
+    """
+    if spec is None or not spec.strip():
+        if default_range is None:
+            raise HeadlessError("frames: give frames like 1-120, 1,5,9 or 1-120:10")
+        a, b = default_range
+        frames = list(range(a, b + 1))
+    else:
+        frames = []
+        for part in spec.split(","):
+            m = FRAME_SPEC.match(part)
+            if not m:
+                raise HeadlessError(
+                    f"frames: cannot read {part.strip()!r}; use N, A-B or A-B:STEP separated by commas"
+                )
+            a = int(m.group(1))
+            b = int(m.group(2)) if m.group(2) is not None else a
+            step = int(m.group(3) or 1)
+            if step < 1:
+                raise HeadlessError(f"frames: step must be at least 1 in {part.strip()!r}")
+            if b < a:
+                raise HeadlessError(f"frames: {part.strip()!r} is empty (end before start)")
+            frames.extend(range(a, b + 1, step))
+    if not frames:
+        raise HeadlessError("frames: the selection is empty")
+    return sorted(set(frames))
+
+
+def _fresh_name(stem: str, ext: str) -> str:
+    """A temporary path beside ``stem`` that does not exist yet (so Blender keeps no backup)."""
+    for n in range(1000):
+        tmp = f"{stem}.part{os.getpid()}-{n}{ext}"
+        if not os.path.exists(tmp):
+            return tmp
+    raise HeadlessError(f"output: cannot find a free temporary name beside {stem!r}")
+
+
+def frame_path(out_dir: str, frame: int) -> str:
+    return os.path.join(out_dir, f"frame_{frame:04d}.png")
+
+
+def render_frames(scene, out_dir: str, frames, resume: bool = True, progress=None):
+    """Render each frame to ``out_dir/frame_NNNN.png``; returns (rendered, skipped) lists.
+
+    With ``resume`` frames whose PNG already exists are skipped. Each image is written
+    to a temporary name and renamed, so an interrupted run leaves no half file.
+    """
+    os.makedirs(out_dir, exist_ok=True)
+    if not os.access(out_dir, os.W_OK):
+        raise HeadlessError(f"output folder: cannot write to {out_dir!r}")
+    if scene.camera is None:
+        raise HeadlessError("scene: has no camera to render from")
+    rendered, skipped = [], []
+    original = scene.frame_current
+    try:
+        for i, f in enumerate(frames):
+            path = frame_path(out_dir, f)
+            if resume and os.path.isfile(path) and os.path.getsize(path) > 0:
+                skipped.append(f)
+            else:
+                scene.frame_set(f)
+                tmp = _fresh_name(path[: -len(".png")], ".png")
+                try:
+                    scene.render.filepath = tmp
+                    bpy.ops.render.render(write_still=True, scene=scene.name)
+                    os.replace(tmp, path)
+                finally:
+                    if os.path.exists(tmp):
+                        os.remove(tmp)
+                rendered.append(f)
+            if progress is not None:
+                progress(i + 1, len(frames))
+    finally:
+        scene.frame_set(original)
+    return rendered, skipped
+
+
+def read_png(path: str) -> np.ndarray:
+    """Pixels of a PNG as (height, width, 4) float32, top row first."""
+    img = bpy.data.images.load(path, check_existing=False)
+    try:
+        w, h = img.size
+        px = np.empty(w * h * 4, np.float32)
+        img.pixels.foreach_get(px)
+    finally:
+        bpy.data.images.remove(img)
+    return px.reshape(h, w, 4)[::-1]
+
+
+def build_scene(
+    controls,
+    frames: int = 120,
+    frame_start: int = 1,
+    key_step: int = 1,
+    mesh=None,
+    mode: str = "SHAPE_KEYS",
+    cache_dir: str | None = None,
+    memory_limit_mb: float = 4096.0,
+    look_options=None,
+    engine: str = "cycles",
+    size=(320, 240),
+    samples: int = 16,
+    progress=None,
+):
+    """A fresh file with the baked eversion, its material, camera and lights; returns the object."""
+    plan = bake.plan_bake(controls, frames, frame_start, key_step, mesh, mode)
+    bake.refuse_if_too_big(plan, memory_limit_mb)
+    empty_file()
+    scene = bpy.context.scene
+    configure_render(scene, engine, size, samples)
+    ob = bake.bake_eversion(
+        scene,
+        plan,
+        name="Eversion",
+        memory_limit_mb=memory_limit_mb,
+        cache_dir=cache_dir or tempfile.gettempdir(),
+        progress=progress,
+    )
+    look.apply_look(ob, look_options or look_settings())
+    bake.set_scene_range(scene, plan)
+    scene.frame_set(plan.frame_start)
+    add_stage(scene)
+    bpy.context.view_layer.objects.active = ob
+    ob.select_set(True)
+    return ob
+
+
+def save_blend(path: str, compress: bool = True) -> str:
+    """Save the open file to ``path`` through a temporary file in the same folder."""
+    path = os.path.abspath(path)
+    folder = os.path.dirname(path)
+    if not path.lower().endswith(".blend"):
+        raise HeadlessError(f"output: {path!r} must end in .blend")
+    try:
+        os.makedirs(folder, exist_ok=True)
+    except OSError as exc:
+        raise HeadlessError(f"output: cannot create {folder!r} ({exc.strerror})") from None
+    if not os.access(folder, os.W_OK):
+        raise HeadlessError(f"output: cannot write to {folder!r}")
+    tmp = _fresh_name(path[: -len(".blend")], ".blend")
+    try:
+        bpy.ops.wm.save_as_mainfile(filepath=tmp, compress=compress, copy=True)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+    return path
+
+
+def point_cache_relative(ob, blend_path: str) -> None:
+    """Make a Mesh Cache modifier's path relative to the .blend it is saved in."""
+    mod = ob.modifiers.get(bake.MODIFIER_NAME)
+    if mod is not None and not mod.filepath.startswith("//"):
+        rel = os.path.relpath(mod.filepath, os.path.dirname(os.path.abspath(blend_path)))
+        mod.filepath = "//" + rel.replace(os.sep, "/")
+
+
+def open_blend(path: str) -> None:
+    path = os.path.abspath(path)
+    if not os.path.isfile(path):
+        raise HeadlessError(f"input: no such .blend file {path!r}")
+    with open(path, "rb") as fh:
+        magic = fh.read(7)
+    if (
+        magic not in (b"BLENDER",)
+        and not magic.startswith(b"\x1f\x8b")
+        and not magic.startswith(b"\x28\xb5\x2f\xfd")
+    ):
+        raise HeadlessError(f"input: {path!r} is not a .blend file")
+    bpy.ops.wm.open_mainfile(filepath=path, load_ui=False)
