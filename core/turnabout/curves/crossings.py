@@ -71,8 +71,9 @@ def crossing_pairs(points: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarr
     n = p.shape[0]
     d = step_vectors(p)
     q = p + d
-    lo = np.minimum(p, q)
-    hi = np.maximum(p, q)
+    pad = 1e-9 * float(np.ptp(p, axis=0).max()) if n else 0.0  # rounding margin
+    lo = np.minimum(p, q) - pad
+    hi = np.maximum(p, q) + pad
     chunk = max(1, PAIRS_PER_CHUNK // max(n, 1))
     js = np.arange(n)
     found_i, found_j = [], []
