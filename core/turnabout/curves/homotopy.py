@@ -150,11 +150,18 @@ def _lowest_speed(theta_a, theta_b, len_a, len_b, amp, phase, grid) -> float:
     return float((sp.min(axis=1) / sp.mean(axis=1)).min())
 
 
-def _candidate_shifts(theta_a, theta_b, n_turn: int, count: int) -> np.ndarray:
-    """Base-point shifts of the second curve that best match the tangent-angle functions.
+def _peak_shifts(score: np.ndarray, count: int) -> np.ndarray:
+    """Indices of the ``count`` highest local maxima of a circular score."""
+    peaks = np.flatnonzero((score >= np.roll(score, 1)) & (score >= np.roll(score, -1)))
+    return peaks[np.argsort(-score[peaks], kind="stable")][:count]
 
-    Maximises the circular cross-correlation of the periodic parts theta - 2 pi n k / N
-    (so minimises their mean squared difference up to a constant), by FFT.
+
+def _candidate_shifts(theta_a, theta_b, za, zb, n_turn: int, count: int) -> np.ndarray:
+    """Base-point shifts of the second curve worth trying, by two circular correlations (FFT).
+
+    - shape: the periodic parts theta - 2 pi n k / N of the tangent-angle functions agree
+      best (largest cross-correlation, i.e. least mean squared difference up to a constant);
+    - travel: the points, centroids removed, lie closest (largest Re sum conj(a_k) b_(k+d)).
     """
     n = theta_a.shape[0]
     ramp = 2 * np.pi * n_turn * np.arange(n) / n
@@ -164,9 +171,16 @@ def _candidate_shifts(theta_a, theta_b, n_turn: int, count: int) -> np.ndarray:
     fb = fb - fb.mean()
     # corr[d] = sum over k of fa[k] * fb[k + d]
     corr = np.fft.irfft(np.conj(np.fft.rfft(fa)) * np.fft.rfft(fb), n)
-    peaks = np.flatnonzero((corr >= np.roll(corr, 1)) & (corr >= np.roll(corr, -1)))
-    best = peaks[np.argsort(-corr[peaks], kind="stable")][:count]
-    return np.unique(np.concatenate([best, [0]]))
+    za = za - za.mean()
+    zb = zb - zb.mean()
+    near = np.fft.ifft(np.conj(np.fft.fft(za)) * np.fft.fft(zb)).real
+    found = [_peak_shifts(corr, count), _peak_shifts(near, count), [0]]
+    return np.unique(np.concatenate(found).astype(np.int64))
+
+
+def _travel(za, zb, shift: int) -> float:
+    """Mean distance a point moves from curve a to curve b started ``shift`` later."""
+    return float(np.abs((za - za.mean()) - np.roll(zb - zb.mean(), -shift)).mean())
 
 
 def plan_homotopy(
@@ -215,28 +229,34 @@ def plan_homotopy(
     ca, cb = theta_a[::stride], theta_b[::stride]
     la, lb = len_a[::stride], len_b[::stride]
     grid = np.linspace(0.0, 1.0, 17)
-    best = None  # (score, shift, lift, amp, phase)
-    plain = None
-    shifts = _candidate_shifts(ca, cb, n_turn, 4) if match_base_points else [0]
+    za = ra[::stride, 0] + 1j * ra[::stride, 1]
+    zb = rb[::stride, 0] + 1j * rb[::stride, 1]
+    wobbles = [(0.0, 0.0)] + [
+        (amp, ph) for amp in (1.2, 2.4) for ph in (0.0, 0.5 * np.pi, np.pi, 1.5 * np.pi)
+    ]
+    cands = []  # (score, travel, extra rotation in turns, shift, lift, amp, phase)
+    shifts = _candidate_shifts(ca, cb, za, zb, n_turn, 4) if match_base_points else [0]
     for shift in shifts:
         tb = _shifted_lift(cb, int(shift), n_turn)
+        lbs = np.roll(lb, -int(shift))
+        travel = _travel(za, zb, int(shift))
         lift0 = -np.round((tb - ca).mean() / (2 * np.pi))
         for lift in (lift0, lift0 - 1, lift0 + 1):
             tbl = tb + 2 * np.pi * lift
-            lbs = np.roll(lb, -int(shift))
-            for amp, phase in [(0.0, 0.0)] + [
-                (A, P) for A in (1.2, 2.4) for P in (0.0, 0.5 * np.pi, np.pi, 1.5 * np.pi)
-            ]:
+            for amp, phase in wobbles:
                 score = _lowest_speed(ca, tbl, la, lbs, amp, phase, grid)
-                cand = (score, int(shift) * stride, float(lift), amp, phase)
-                if best is None or score > best[0]:
-                    best = cand
-                if amp == 0.0 and (plain is None or score > plain[0]):
-                    plain = cand
-    assert best is not None and plain is not None
-    # keep the plain interpolation unless it comes close to stalling
-    chosen = plain if plain[0] >= 0.25 or plain[0] >= 0.8 * best[0] else best
-    _, shift, lift, amp, phase = chosen
+                cands.append(
+                    (score, travel, abs(lift - lift0), int(shift) * stride, float(lift), amp, phase)
+                )
+    best = max(c[0] for c in cands)
+    # the plain interpolation (no wobble) whenever it keeps a fair speed; among those, the
+    # match that moves the points least, then the one that turns least
+    fair = [c for c in cands if c[5] == 0.0 and c[0] >= max(0.1, 0.5 * best)]
+    if fair:
+        chosen = min(fair, key=lambda c: (round(c[1], 9), c[2], -c[0]))
+    else:
+        chosen = max(cands, key=lambda c: c[0])
+    _, _, _, shift, lift, amp, phase = chosen
     tb = _shifted_lift(theta_b, shift, n_turn) + 2 * np.pi * lift
     return HomotopyPlan(
         start=ra,
