@@ -99,7 +99,7 @@ def _elements(root, parse_transform):
         tr = el.get("transform")
         if tr:
             try:
-                m = m @ np.asarray(parse_transform(tr), dtype=np.float64)
+                m = m @ np.asarray(parse_transform(tr, strict=True), dtype=np.float64)
             except Exception as exc:  # the library raises several kinds on bad syntax
                 raise CurveError(f"unreadable transform {tr[:60]!r}: {exc}") from None
         if _local(el.tag) in ("path", "polygon"):
