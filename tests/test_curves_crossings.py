@@ -13,6 +13,10 @@ from curve_shapes import circle, curl, figure_eight, limacon, random_fourier_cur
 from turnabout.curves import crossing_pairs, self_crossings, turning_number, whitney_check
 
 
+def cross2(u, v):
+    return u[0] * v[1] - u[1] * v[0]
+
+
 def brute_force_crossings(points):
     """Independent reference: every pair of non-adjacent steps, one at a time (slow)."""
     p = np.asarray(points)
@@ -25,10 +29,10 @@ def brute_force_crossings(points):
                 continue
             c, d = p[j], p[(j + 1) % n]
             # orientation tests (common practice: segments cross iff each straddles the other)
-            o1 = np.sign(np.cross(b - a, c - a))
-            o2 = np.sign(np.cross(b - a, d - a))
-            o3 = np.sign(np.cross(d - c, a - c))
-            o4 = np.sign(np.cross(d - c, b - c))
+            o1 = np.sign(cross2(b - a, c - a))
+            o2 = np.sign(cross2(b - a, d - a))
+            o3 = np.sign(cross2(d - c, a - c))
+            o4 = np.sign(cross2(d - c, b - c))
             if o1 * o2 < 0 and o3 * o4 < 0:
                 found += 1
     return found
