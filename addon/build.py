@@ -62,7 +62,10 @@ def build_core_wheel(out_dir: str) -> str:
         "Summary: Blender-free core of Turnabout (sphere eversions, regular homotopies)\n"
         "Requires-Python: >=3.11\nRequires-Dist: numpy>=1.26\n"
     ).encode()
-    wheel = b"Wheel-Version: 1.0\nGenerator: turnabout-build\nRoot-Is-Purelib: true\nTag: py3-none-any\n"
+    wheel = (
+        b"Wheel-Version: 1.0\nGenerator: turnabout-build\n"
+        b"Root-Is-Purelib: true\nTag: py3-none-any\n"
+    )
     files += [
         (f"{dist_info}/METADATA", meta),
         (f"{dist_info}/WHEEL", wheel),
@@ -85,8 +88,9 @@ def find_blender_ext(explicit: str | None = None) -> str:
     spec = importlib.util.find_spec("bpy")
     if spec is None or not spec.submodule_search_locations:
         raise BuildError(
-            "Blender's extension tool not found: install the bpy module (pip install -e '.[blender]') "
-            "or pass --blender-ext <blender>/<version>/scripts/addons_core/bl_pkg/cli/blender_ext.py"
+            "Blender's extension tool not found: install the bpy module "
+            "(pip install -e '.[blender]') or pass --blender-ext "
+            "<blender>/<version>/scripts/addons_core/bl_pkg/cli/blender_ext.py"
         )
     for base in spec.submodule_search_locations:
         hits = sorted(
@@ -144,7 +148,9 @@ def build(out_dir: str, blender_ext: str | None = None, validate: bool = True) -
 INSTALL_SCRIPT = """
 import sys, bpy
 zip_path = sys.argv[-1]
-bpy.ops.extensions.package_install_files(filepath=zip_path, repo="user_default", enable_on_install=True)
+bpy.ops.extensions.package_install_files(
+    filepath=zip_path, repo="user_default", enable_on_install=True
+)
 bpy.ops.wm.save_userpref()
 import addon_utils
 print("enabled:", "bl_ext.user_default.turnabout" in {m.__name__ for m in addon_utils.modules()})

@@ -103,7 +103,8 @@ def ensure_writable(folder: str) -> None:
         os.remove(probe)
     except OSError as exc:
         raise CheckError(
-            f"report folder: cannot write to {folder!r} ({exc.strerror or exc}); choose a writable folder"
+            f"report folder: cannot write to {folder!r} ({exc.strerror or exc}); "
+            "choose a writable folder"
         ) from None
 
 
@@ -361,7 +362,8 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
         me.color_attributes.active_color = attr
     else:
         outcome.warnings.append(
-            "no heat attribute: the evaluated mesh has a different vertex count from the object's own mesh"
+            "no heat attribute: the evaluated mesh has a different vertex count "
+            "from the object's own mesh"
         )
 
     # the per-frame list

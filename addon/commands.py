@@ -365,10 +365,12 @@ def run_demo(args) -> int:
         print(f"  note:     {w}")
     if previews:
         print(
-            f"  previews: {os.path.join(out_dir, 'preview')} (frames {', '.join(map(str, previews))})"
+            f"  previews: {os.path.join(out_dir, 'preview')} "
+            f"(frames {', '.join(map(str, previews))})"
         )
     print(
-        f"  verdict:  {report.verdict} ({len(report.failing_frames())} failing frames of {len(outcome.frames)})"
+        f"  verdict:  {report.verdict} ({len(report.failing_frames())} failing frames "
+        f"of {len(outcome.frames)})"
     )
     return 0
 

@@ -65,7 +65,7 @@ def add_stage(scene, distance: float = 4.6, height: float = 1.2):
     scene.camera = cam
 
     for name, loc, energy, size in (
-        (LIGHT_NAME, (3.0, -4.0, 5.0), 900.0, 2.0),
+        (LIGHT_NAME, (3.0, -4.0, 5.0), 600.0, 2.0),
         (FILL_NAME, (-4.5, -2.0, 1.0), 250.0, 4.0),
     ):
         data = bpy.data.lights.get(name) or bpy.data.lights.new(name, "AREA")
@@ -140,7 +140,8 @@ def parse_frames(spec: str, default_range: tuple[int, int] | None = None) -> lis
             m = FRAME_SPEC.match(part)
             if not m:
                 raise HeadlessError(
-                    f"frames: cannot read {part.strip()!r}; use N, A-B or A-B:STEP separated by commas"
+                    f"frames: cannot read {part.strip()!r}; "
+                    "use N, A-B or A-B:STEP separated by commas"
                 )
             a = int(m.group(1))
             b = int(m.group(2)) if m.group(2) is not None else a

@@ -78,7 +78,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     # --- construction
     strips: IntProperty(
         name="Strips",
-        description=f"Number of guide strips, the motion's symmetry order ({MIN_STRIPS}-{MAX_STRIPS})",
+        description=f"Number of guide strips, the symmetry order ({MIN_STRIPS}-{MAX_STRIPS})",
         default=MIN_STRIPS,
         min=MIN_STRIPS,
         max=MAX_STRIPS,
@@ -90,7 +90,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     )
     depth: FloatProperty(
         name="Depth",
-        description="Corrugation depth as a fraction of the sphere's radius (its range depends on strips)",
+        description="Corrugation depth, a fraction of the radius (its range depends on strips)",
         default=0.1,
         min=0.0,
         max=1.0,

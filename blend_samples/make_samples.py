@@ -1,0 +1,154 @@
+"""Regenerate the sample .blend files in this folder.
+
+    python blend_samples/make_samples.py            # with the bpy module installed
+    blender -b -P blend_samples/make_samples.py     # inside Blender, from a source checkout
+
+default_eversion.blend  the default controls on a coarse mesh (96 x 47), 120 frames
+fast_preview.blend      a light version for quick looks (Workbench settings)
+broken_pinch.blend      a hand-made shape-key animation with a pinch and a spike, which the
+                        checker must flag (for trying the Check panel)
+
+Each file is kept under 5 MB.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import os
+import sys
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+REPO = os.path.dirname(HERE)
+LIMIT_BYTES = 5_000_000
+
+
+def _import_addon():
+    try:
+        import turnabout_blender  # noqa: F401
+    except ModuleNotFoundError:
+        spec = importlib.util.spec_from_file_location(
+            "_ta_run", os.path.join(REPO, "addon", "run_headless.py")
+        )
+        mod = importlib.util.module_from_spec(spec)
+        spec.loader.exec_module(mod)
+        mod._import_addon_package()
+    import turnabout_blender
+
+    return turnabout_blender
+
+
+def make_default(path: str) -> None:
+    from turnabout.eversion import Controls
+    from turnabout.mesh import uniform_sphere_mesh
+
+    from turnabout_blender import headless
+
+    headless.build_scene(
+        Controls(),
+        frames=120,
+        key_step=1,
+        mesh=uniform_sphere_mesh(96, 47),
+        size=(640, 480),
+        samples=64,
+    )
+    headless.save_blend(path)
+
+
+def make_preview(path: str) -> None:
+    from turnabout.eversion import Controls
+    from turnabout.mesh import uniform_sphere_mesh
+
+    from turnabout_blender import headless
+
+    headless.build_scene(
+        Controls(),
+        frames=48,
+        key_step=4,
+        mesh=uniform_sphere_mesh(48, 23),
+        engine="workbench",
+        size=(320, 240),
+    )
+    headless.save_blend(path)
+
+
+# hand-made keyframes: (shape key, [(frame, value), ...])
+BROKEN_KEYS = (
+    ("Squash", [(1, 0.0), (12, 1.0), (24, 0.0)]),
+    ("Pinch", [(14, 0.0), (18, 1.0), (22, 0.0)]),
+    ("Spike", [(30, 0.0), (32, 1.0), (34, 0.0)]),
+)
+BROKEN_RANGE = (1, 40)
+
+
+def make_broken(path: str) -> None:
+    """A round sphere animated by hand with relative shape keys; two of them break it.
+
+    Squash flattens it smoothly (fine); Pinch pulls the northern cap onto the pole (faces
+    collapse to nothing); Spike pulls one equator vertex far out (a sharp point).
+    """
+    import bpy
+    import numpy as np
+    from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+
+    from turnabout_blender import bake, headless, look
+
+    headless.empty_file()
+    scene = bpy.context.scene
+    sphere = uniform_sphere_mesh(48, 23)
+    base = round_sphere_positions(sphere).astype(np.float32)
+    me = bake.new_sphere_mesh("Hand-made", sphere, base, strips=8)
+    ob = bpy.data.objects.new("Hand-made", me)
+    scene.collection.objects.link(ob)
+    ob.shape_key_add(name="Basis", from_mix=False)
+
+    squash = base * np.array([1.15, 1.15, 0.55], np.float32)
+    _, lat = sphere.vertex_params
+    pinch = base.copy()
+    pinch[lat > np.radians(55)] = base[-1]  # the cap onto the north pole
+    spike = base.copy()
+    equator = int(
+        np.argmin(np.abs(lat) + (np.arange(len(lat)) == 0))
+    )  # a vertex on the middle ring
+    spike[equator] *= 2.2
+    for name, target in (("Squash", squash), ("Pinch", pinch), ("Spike", spike)):
+        kb = ob.shape_key_add(name=name, from_mix=False)
+        kb.points.foreach_set("co", target.ravel())
+        kb.value = 0.0
+    for name, keys in BROKEN_KEYS:
+        kb = me.shape_keys.key_blocks[name]
+        for frame, value in keys:
+            kb.value = value
+            kb.keyframe_insert("value", frame=frame)
+    look.apply_look(ob, headless.look_settings())
+    scene.frame_start, scene.frame_end = BROKEN_RANGE
+    scene.frame_set(1)
+    headless.configure_render(scene, "cycles", (320, 240), 16)
+    headless.add_stage(scene)
+    bpy.context.view_layer.objects.active = ob
+    ob.select_set(True)
+    headless.save_blend(path)
+
+
+SAMPLES = {
+    "default_eversion.blend": make_default,
+    "fast_preview.blend": make_preview,
+    "broken_pinch.blend": make_broken,
+}
+
+
+def main(out_dir: str = HERE) -> int:
+    _import_addon()
+    for name, maker in SAMPLES.items():
+        path = os.path.join(out_dir, name)
+        maker(path)
+        size = os.path.getsize(path)
+        print(f"wrote {path} ({size / 1e6:.2f} MB)")
+        if size > LIMIT_BYTES:
+            print(f"  {name} is over {LIMIT_BYTES / 1e6:.0f} MB: do not commit it", file=sys.stderr)
+            return 1
+    return 0
+
+
+if __name__ == "__main__":
+    argv = sys.argv[sys.argv.index("--") + 1 :] if "--" in sys.argv else sys.argv[1:]
+    sys.exit(main(argv[0] if argv else HERE))

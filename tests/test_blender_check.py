@@ -1,0 +1,178 @@
+"""Checking animated meshes inside Blender: results against the core checker, refusals."""
+
+from __future__ import annotations
+
+import json
+import os
+
+import numpy as np
+import pytest
+from blender_support import REPO, blank, bpy, counts, evaluated_positions  # noqa: F401  (fixture)
+
+pytestmark = pytest.mark.blender
+
+BROKEN = os.path.join(REPO, "blend_samples", "broken_pinch.blend")
+
+
+def _has_checker() -> bool:
+    try:
+        from turnabout.check import check_animation  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+needs_checker = pytest.mark.skipif(not _has_checker(), reason="the core checker is not available")
+
+
+def _open(path, tmp_path=None):
+    """Open a sample; with tmp_path, re-save it there so reports land in a scratch folder."""
+    from turnabout_blender import headless
+
+    bpy.ops.wm.open_mainfile(filepath=path, load_ui=False)
+    headless.ensure_registered()
+    if tmp_path is not None:
+        bpy.ops.wm.save_as_mainfile(filepath=str(tmp_path / os.path.basename(path)))
+    return bpy.context.active_object
+
+
+# ----------------------------------------------------------------------------- with the checker
+
+
+@needs_checker
+def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
+    from turnabout.check import Thresholds, check_animation
+
+    from turnabout_blender.checking import MARKER_FAIL, MARKER_WORST
+
+    ob = _open(BROKEN, tmp_path)
+    scene = bpy.context.scene
+    frames = range(scene.frame_start, scene.frame_end + 1)
+    positions = evaluated_positions(ob, frames)
+    me = ob.data
+    me.calc_loop_triangles()
+    tri = np.empty(len(me.loop_triangles) * 3, np.int32)
+    me.loop_triangles.foreach_get("vertices", tri)
+    core = check_animation(positions, tri.reshape(-1, 3), thresholds=Thresholds())
+    want = sorted(scene.frame_start + int(i) for i in core.failing_frames())
+    assert want, "the broken sample must fail somewhere"
+
+    assert bpy.ops.turnabout.check() == {"FINISHED"}
+    got = sorted(m.frame for m in scene.timeline_markers if m.name == MARKER_FAIL)
+    assert got == want
+    worst = [m.frame for m in scene.timeline_markers if m.name == MARKER_WORST]
+    assert worst == [scene.frame_start + int(core.worst_frame)]
+
+    # the metric curves carry the core's per-frame numbers
+    table = core.metrics_table()
+    action = ob.animation_data.action
+    checked = 0
+    for name, values in table.items():
+        values = np.asarray(values)
+        if values.dtype.kind not in "fiub" or values.shape != (len(frames),):
+            continue
+        fc = action.fcurve_ensure_for_datablock(ob, f'["turnabout_{name}"]')
+        got_vals = np.array([fc.evaluate(f) for f in frames])
+        want_vals = np.nan_to_num(values.astype(np.float64), nan=0.0, posinf=1e30, neginf=-1e30)
+        np.testing.assert_allclose(got_vals, want_vals.astype(np.float32), rtol=1e-6, atol=1e-6)
+        checked += 1
+    assert checked >= 1
+
+    # per-frame list, heat attribute, report files beside the .blend
+    rows = scene.turnabout.results
+    assert [r.frame for r in rows] == list(frames)
+    assert [r.verdict for r in rows] == [str(f.verdict) for f in core.frames]
+    heat = ob.data.color_attributes["turnabout_heat"]
+    assert len(heat.data) == len(ob.data.vertices)
+    stem = os.path.join(
+        str(tmp_path), "broken_pinch_" + ob.name.replace(" ", "_").replace("-", "-")
+    )
+    report = json.load(open(stem + "_check.json"))
+    assert report  # written by the core's own writer
+    assert scene.frame_current == scene.frame_start  # the check puts the frame back
+
+
+@needs_checker
+def test_double_curves_become_a_curve_object_when_asked(tmp_path):
+    ob = _open(BROKEN, tmp_path)
+    s = bpy.context.scene.turnabout
+    s.check_curve_object = True
+    bpy.ops.turnabout.check(write_reports=False)
+    assert bpy.data.objects.get(ob.name + " double curves") is not None
+    bpy.ops.turnabout.check(write_reports=False)  # again: updated, not duplicated
+    assert sum(o.name.startswith(ob.name + " double curves") for o in bpy.data.objects) == 1
+
+
+# ----------------------------------------------------------------------------- refusals
+
+
+def _refused(op_kwargs=None, match=""):
+    before = counts()
+    with pytest.raises(RuntimeError, match=match):
+        bpy.ops.turnabout.check(**(op_kwargs or {}))
+    assert counts() == before
+    assert len(bpy.context.scene.turnabout.results) == 0
+
+
+@pytest.mark.usefixtures("blank")
+def test_a_camera_is_refused_as_not_a_mesh():
+    cam = bpy.data.objects.new("Cam", bpy.data.cameras.new("Cam"))
+    bpy.context.scene.collection.objects.link(cam)
+    bpy.context.view_layer.objects.active = cam
+    _refused({"write_reports": False}, match="not a mesh")
+
+
+@pytest.mark.usefixtures("blank")
+def test_an_empty_mesh_is_refused():
+    ob = bpy.data.objects.new("Empty mesh", bpy.data.meshes.new("nothing"))
+    bpy.context.scene.collection.objects.link(ob)
+    bpy.context.view_layer.objects.active = ob
+    _refused({"write_reports": False}, match="no faces")
+
+
+@pytest.mark.usefixtures("blank")
+def test_topology_changing_between_frames_is_refused():
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    ob = bpy.context.active_object
+    mod = ob.modifiers.new("grow", "BUILD")  # removes faces over time
+    mod.frame_start, mod.frame_duration = -5, 30  # part-built at frame 1, growing after
+    bpy.context.scene.frame_start, bpy.context.scene.frame_end = 1, 12
+    bpy.context.scene.frame_set(6)
+    _refused({"write_reports": False}, match="topology")
+
+
+@pytest.mark.usefixtures("blank")
+def test_an_empty_frame_range_is_refused():
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    _refused({"use_range": True, "first": 20, "last": 10, "write_reports": False}, match="empty")
+
+
+@pytest.mark.usefixtures("blank")
+def test_an_unwritable_report_folder_is_refused_before_anything_changes(tmp_path):
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder")
+    _refused({"report_dir": str(blocker / "reports")}, match="report folder")
+    assert not (blocker.parent / "reports").exists()
+
+
+@pytest.mark.usefixtures("blank")
+def test_an_unsaved_file_needs_a_report_folder():
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    _refused({}, match="not saved")
+
+
+@pytest.mark.usefixtures("blank")
+def test_closing_the_check_midway_restores_the_frame_and_changes_nothing():
+    from turnabout_blender import checking
+
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    scene = bpy.context.scene
+    scene.frame_start, scene.frame_end = 1, 30
+    scene.frame_set(7)
+    before = counts()
+    steps = checking.check_steps(bpy.context, bpy.context.active_object, 1, 30, None)
+    for _ in range(5):
+        next(steps)
+    steps.close()  # what ESC does in the interface
+    assert counts() == before and scene.frame_current == 7
