@@ -8,6 +8,8 @@ every frame, and every pair of different turning numbers must be refused.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 from curve_shapes import (
@@ -117,7 +119,7 @@ def test_turning_number_zero_mirror_pair_with_fixed_starts_needs_and_gets_the_wo
     speed, turn, tn = independent_checks(h.points, 0)
     assert speed.min() > 0.1 and np.all(tn == 0)
     # without the wobble the middle frame really does collapse (what the wobble prevents)
-    bare = plan.__class__(**{**plan.__dict__, "wobble_amplitude": 0.0})
+    bare = dataclasses.replace(plan, wobble_amplitude=0.0)
     mid = homotopy_points(bare, np.array([0.5]))
     bare_speed, _, _ = independent_checks(mid, 0)
     assert bare_speed[0] < 0.05

@@ -89,7 +89,8 @@ class _LazyBar:
     """A progress bar that appears only once there is progress to show (not on refusal)."""
 
     def __init__(self, description: str, enabled: bool):
-        self.description, self.enabled, self.bar = description, enabled, None
+        self.description, self.enabled = description, enabled
+        self.bar: ProgressBar | None = None
 
     def __call__(self, done: int, total: int) -> None:
         if self.bar is None:

@@ -104,7 +104,7 @@ def read_curve(path, *, select: int | str | None = None, samples: int = 1024) ->
     return pts
 
 
-def write_npz_atomic(path, arrays: dict[str, np.ndarray]) -> None:
+def write_npz_atomic(path, arrays: dict) -> None:
     """Write arrays to an .npz file through a temporary file renamed into place."""
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")

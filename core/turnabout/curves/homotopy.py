@@ -174,7 +174,7 @@ def _candidate_shifts(theta_a, theta_b, za, zb, n_turn: int, count: int) -> np.n
     za = za - za.mean()
     zb = zb - zb.mean()
     near = np.fft.ifft(np.conj(np.fft.fft(za)) * np.fft.fft(zb)).real
-    found = [_peak_shifts(corr, count), _peak_shifts(near, count), [0]]
+    found = [_peak_shifts(corr, count), _peak_shifts(near, count), np.zeros(1, np.int64)]
     return np.unique(np.concatenate(found).astype(np.int64))
 
 
