@@ -282,8 +282,12 @@ def bake_eversion(
     memory_limit_mb: float = 4096.0,
     cache_dir: str = "//turnabout_cache/",
     progress=None,
+    positions=None,
 ):
     """Bake ``plan`` into ``ob`` (re-built in place) or into a new object linked to ``scene``.
+
+    ``positions`` (n_keys, V, 3) float32, when given, are the shapes already evaluated by
+    the core for ``plan.times`` (the bake then only moves them into Blender).
 
     Everything that can be refused (memory, cache folder) is checked before any Blender
     data is made; on an error the file is left as it was. Returns the object.
@@ -300,7 +304,17 @@ def bake_eversion(
         _ensure_writable_folder(os.path.dirname(pc2), "cache folder")
 
     total = 2 * plan.n_keys
-    if plan.mode == "SHAPE_KEYS":
+    if positions is not None:
+        if plan.mode != "SHAPE_KEYS":
+            raise BakeError("positions: given positions are baked as shape keys only")
+        positions = np.asarray(positions, np.float32)
+        if positions.shape != (plan.n_keys, plan.n_vertices, 3):
+            raise BakeError(
+                f"positions: expected ({plan.n_keys}, {plan.n_vertices}, 3) for this plan, "
+                f"got {positions.shape}"
+            )
+        first = positions[0]
+    elif plan.mode == "SHAPE_KEYS":
         positions = evaluate(
             plan.controls,
             plan.times,
