@@ -1,0 +1,1 @@
+"""Frame-by-frame immersion checks of mesh animations (Blender-free)."""

@@ -1,0 +1,451 @@
+"""Self-intersection of one mesh frame: double curves and triple points.
+
+Broad phase: triangle bounding boxes hashed into a uniform grid (pure numpy); each pair is
+kept only in the cell holding the low corner of the two boxes' overlap, so no pair is seen
+twice. Pairs sharing a vertex (or an edge) are dropped: neighbouring faces always touch.
+
+Narrow phase: the double curve is made of "events", an edge of one triangle piercing
+another triangle. Each event is decided by a predicate that depends only on that edge and
+that triangle (computed in a canonical vertex order), so the two triangle pairs that share
+an event always agree about it. A pair with two events gives one segment between the two
+piercing points; segments sharing an event chain into polylines (the double curves), and
+the chains are closed or end where the surface folds onto itself (a pinch point).
+
+Triple points: a double-curve segment of sheets (A, B) that pierces a triangle of a third
+sheet C. The three chains through a triple point each cross the third sheet once, so a
+generic triple point is seen three times; nearby detections are merged into one point.
+Banchoff ("Triple points and surgery of immersed surfaces", Proc. AMS, 1974): a generic
+immersion of a closed surface has a number of triple points congruent to its Euler
+characteristic mod 2.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .topology import MeshTopology
+
+_TINY = np.finfo(np.float64).tiny
+
+
+@dataclass
+class IntersectionResult:
+    """Double curves and triple points of one frame.
+
+    segments : (S, 2, 3) float64 endpoints of the intersection segments
+    segment_faces : (S, 2) int64 the two triangles of each segment
+    curves : list of (k,) int64 arrays of segment indices, in order along each double curve
+    curve_closed : list of bool, one per curve
+    triple_points : (T, 3) float64 positions
+    triple_faces : (T, 3) int64 one triangle of each of the three sheets
+    triple_detections : (T,) int64 how many chain crossings each point merged (3 if generic)
+    degenerate_pairs : pairs whose event count was not 0 or 2 (touching or coplanar faces)
+    candidate_pairs : pairs left after the broad phase
+    """
+
+    segments: np.ndarray
+    segment_faces: np.ndarray
+    curves: list[np.ndarray]
+    curve_closed: list[bool]
+    triple_points: np.ndarray
+    triple_faces: np.ndarray
+    triple_detections: np.ndarray
+    degenerate_pairs: int = 0
+    candidate_pairs: int = 0
+    broad_phase: str = "grid"
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def double_curve_count(self) -> int:
+        return len(self.curves)
+
+    @property
+    def triple_point_count(self) -> int:
+        return int(self.triple_points.shape[0])
+
+    def polylines(self) -> list[np.ndarray]:
+        """Each double curve as a (k, 3) float64 polyline (closed curves repeat the start)."""
+        out = []
+        for seg_ids, closed in zip(self.curves, self.curve_closed, strict=True):
+            pts = _chain_points(self.segments, seg_ids)
+            if closed:
+                pts = np.vstack([pts, pts[:1]])
+            out.append(pts)
+        return out
+
+
+def _chain_points(segments: np.ndarray, seg_ids: np.ndarray) -> np.ndarray:
+    if seg_ids.size == 1:
+        return segments[seg_ids[0]].copy()
+    s = segments[seg_ids]  # (k, 2, 3)
+    pts = [s[0, 0], s[0, 1]]
+    # orient the first segment so its end meets the second
+    if np.linalg.norm(s[0, 0] - s[1, 0]) + np.linalg.norm(s[0, 0] - s[1, 1]) < np.linalg.norm(
+        s[0, 1] - s[1, 0]
+    ) + np.linalg.norm(s[0, 1] - s[1, 1]):
+        pts = [s[0, 1], s[0, 0]]
+    for k in range(1, len(s)):
+        last = pts[-1]
+        a, b = s[k, 0], s[k, 1]
+        pts.append(b if np.sum((a - last) ** 2) <= np.sum((b - last) ** 2) else a)
+    return np.array(pts)
+
+
+# --------------------------------------------------------------------------- broad phase
+
+
+def _expand_ranges(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(owner, local) for ``counts[i]`` consecutive items per owner i."""
+    owner = np.repeat(np.arange(counts.size), counts)
+    local = np.arange(owner.size) - np.repeat(np.cumsum(counts) - counts, counts)
+    return owner, local
+
+
+def grid_candidate_pairs(
+    lo: np.ndarray, hi: np.ndarray, cell_scale: float = 1.5
+) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float64 box corners.
+
+    A uniform grid with cells ``cell_scale`` times the mean box extent; each pair is
+    reported once. Returns two (K,) int64 arrays.
+    """
+    m = lo.shape[0]
+    ext = hi - lo
+    h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
+    origin = lo.min(axis=0)
+    imin = np.floor((lo - origin) / h).astype(np.int64)
+    imax = np.floor((hi - origin) / h).astype(np.int64)
+    dims = imax.max(axis=0) + 1
+    span = imax - imin + 1
+    counts = span[:, 0] * span[:, 1] * span[:, 2]
+    tri, local = _expand_ranges(counts)
+    sx, sy = span[tri, 0], span[tri, 1]
+    cx = imin[tri, 0] + local % sx
+    cy = imin[tri, 1] + (local // sx) % sy
+    cz = imin[tri, 2] + local // (sx * sy)
+    key = (cx * dims[1] + cy) * dims[2] + cz
+    order = np.argsort(key, kind="stable")
+    key, tri = key[order], tri[order]
+    # group boundaries
+    n = key.size
+    new = np.ones(n, bool)
+    new[1:] = key[1:] != key[:-1]
+    gstart = np.flatnonzero(new)
+    gsize = np.diff(np.append(gstart, n))
+    gend = np.repeat(gstart + gsize, gsize)
+    partners = gend - np.arange(n) - 1
+    first, off = _expand_ranges(partners)
+    second = first + 1 + off
+    a, b = tri[first], tri[second]
+    cell = key[first]
+    # overlap test and "low corner of the overlap lies in this cell" de-duplication
+    olo = np.maximum(lo[a], lo[b])
+    ohi = np.minimum(hi[a], hi[b])
+    overlap = np.all(olo <= ohi, axis=1)
+    oc = np.floor((olo - origin) / h).astype(np.int64)
+    home = (oc[:, 0] * dims[1] + oc[:, 1]) * dims[2] + oc[:, 2]
+    keep = overlap & (home == cell)
+    a, b = a[keep], b[keep]
+    swap = a > b
+    a, b = np.where(swap, b, a), np.where(swap, a, b)
+    del m
+    return a.astype(np.int64), b.astype(np.int64)
+
+
+def _mathutils_pairs(P: np.ndarray, faces: np.ndarray):  # pragma: no cover - optional
+    """Pairs from Blender's mathutils BVH overlap when it can be imported, else None."""
+    try:
+        from mathutils.bvhtree import BVHTree
+    except ImportError:
+        return None
+    tree = BVHTree.FromPolygons(P.tolist(), faces.tolist(), all_triangles=True)
+    pairs = np.array(tree.overlap(tree), dtype=np.int64).reshape(-1, 2)
+    pairs = pairs[pairs[:, 0] < pairs[:, 1]]
+    return pairs[:, 0], pairs[:, 1]
+
+
+# --------------------------------------------------------------------------- predicates
+
+
+def _sign(x: np.ndarray) -> np.ndarray:
+    """Sign with zero counted as positive (a fixed symbolic tie-break)."""
+    return np.where(x < 0, -1, 1).astype(np.int8)
+
+
+def _orient4(p, q, u, v) -> np.ndarray:
+    """det[q - p, u - p, v - p] for rows of (K, 3) arrays (p, q, u, v in canonical order)."""
+    a = q - p
+    b = u - p
+    c = v - p
+    return (
+        a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
+        + a[:, 1] * (b[:, 2] * c[:, 0] - b[:, 0] * c[:, 2])
+        + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0])
+    )
+
+
+class _Frame:
+    """Per-triangle data of one frame used by the predicates."""
+
+    def __init__(self, P: np.ndarray, faces: np.ndarray):
+        self.P = P
+        self.faces = faces.astype(np.int64)
+        p0, p1, p2 = P[self.faces[:, 0]], P[self.faces[:, 1]], P[self.faces[:, 2]]
+        self.p0 = p0
+        self.normal = np.cross(p1 - p0, p2 - p0)
+
+    def plane_value(self, t: np.ndarray, x: np.ndarray) -> np.ndarray:
+        """normal_t . (x - p0_t): a deterministic function of (t, x)."""
+        d = x - self.p0[t]
+        n = self.normal[t]
+        return n[:, 0] * d[:, 0] + n[:, 1] * d[:, 1] + n[:, 2] * d[:, 2]
+
+    def inside_line(self, t: np.ndarray, p: np.ndarray, q: np.ndarray) -> np.ndarray:
+        """Does the line p -> q pass through triangle t?  (p, q in canonical order)
+
+        Tests the line against each edge of t in canonical (low index first) order and
+        corrects the sign for the edge's direction in t; inside when all three agree.
+        """
+        f = self.faces[t]
+        signs = []
+        for k in range(3):
+            i, j = f[:, k], f[:, (k + 1) % 3]
+            u = np.minimum(i, j)
+            v = np.maximum(i, j)
+            s = _sign(_orient4(p, q, self.P[u], self.P[v]))
+            signs.append(np.where(i < j, s, -s))
+        return (signs[0] == signs[1]) & (signs[1] == signs[2])
+
+
+def _edge_events(fr: _Frame, edge_tri: np.ndarray, edge_k: np.ndarray, target: np.ndarray):
+    """Does edge k of triangle edge_tri pierce triangle target?  Returns (hit, point, p, q)."""
+    f = fr.faces
+    i = f[edge_tri, edge_k]
+    j = f[edge_tri, (edge_k + 1) % 3]
+    lo_v, hi_v = np.minimum(i, j), np.maximum(i, j)
+    p, q = fr.P[lo_v], fr.P[hi_v]
+    op = fr.plane_value(target, p)
+    oq = fr.plane_value(target, q)
+    cross = _sign(op) != _sign(oq)
+    hit = np.zeros(target.size, bool)
+    point = np.zeros((target.size, 3))
+    if cross.any():
+        w = np.flatnonzero(cross)
+        ins = fr.inside_line(target[w], p[w], q[w])
+        w = w[ins]
+        hit[w] = True
+        t = op[w] / (op[w] - oq[w])
+        point[w] = p[w] + (q[w] - p[w]) * t[:, None]
+    return hit, point
+
+
+# --------------------------------------------------------------------------- main
+
+
+def self_intersections(
+    positions: np.ndarray,
+    topo: MeshTopology,
+    use_mathutils: bool = False,
+    cell_scale: float = 1.5,
+) -> IntersectionResult:
+    """Double curves and triple points of one frame.
+
+    positions : (V, 3) float; topo : the mesh topology (faces (M, 3)).
+    use_mathutils : take the broad phase from Blender's BVH overlap when importable.
+    """
+    P = np.asarray(positions, np.float64)
+    faces = topo.faces.astype(np.int64)
+    m = faces.shape[0]
+    fr = _Frame(P, faces)
+    tri = P[faces]  # (M, 3, 3)
+    lo, hi = tri.min(axis=1), tri.max(axis=1)
+    pairs = _mathutils_pairs(P, faces) if use_mathutils else None
+    broad = "mathutils" if pairs is not None else "grid"
+    if pairs is None:
+        pairs = grid_candidate_pairs(lo, hi, cell_scale)
+    a, b = pairs
+    fa, fb = faces[a], faces[b]
+    share = np.zeros(a.size, bool)
+    for i in range(3):
+        for j in range(3):
+            share |= fa[:, i] == fb[:, j]
+    a, b = a[~share], b[~share]
+    n_candidates = int(a.size)
+
+    # plane straddling (the exact consequence of the event predicate): a pair can have an
+    # event only if one triangle's vertices lie on both sides of the other's plane
+    def straddles(t, s):
+        fs = faces[s]
+        s0 = _sign(fr.plane_value(t, P[fs[:, 0]]))
+        s1 = _sign(fr.plane_value(t, P[fs[:, 1]]))
+        s2 = _sign(fr.plane_value(t, P[fs[:, 2]]))
+        return ~((s0 == s1) & (s1 == s2))
+
+    b_across_a = straddles(a, b)
+    a_across_b = straddles(b, a)
+    keep = b_across_a | a_across_b
+    a, b = a[keep], b[keep]
+    k = a.size
+    # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
+    hits = np.zeros((k, 6), bool)
+    points = np.zeros((k, 6, 3))
+    keys = np.zeros((k, 6), np.int64)
+    for e in range(3):
+        ke = np.full(k, e)
+        h, pt = _edge_events(fr, a, ke, b)
+        hits[:, e], points[:, e] = h, pt
+        keys[:, e] = topo.face_edges[a, e] * m + b
+        h, pt = _edge_events(fr, b, ke, a)
+        hits[:, 3 + e], points[:, 3 + e] = h, pt
+        keys[:, 3 + e] = topo.face_edges[b, e] * m + a
+    n_ev = hits.sum(axis=1)
+    degenerate = int(np.sum((n_ev != 0) & (n_ev != 2)))
+    good = np.flatnonzero(n_ev == 2)
+    hsub = hits[good]
+    col = np.argsort(~hsub, axis=1, kind="stable")[:, :2]  # the two event columns
+    rows = np.arange(good.size)[:, None]
+    seg_keys = keys[good][rows, col]  # (S, 2)
+    seg_pts = points[good][rows, col]  # (S, 2, 3)
+    # canonical endpoint order: lower event key first
+    flip = seg_keys[:, 0] > seg_keys[:, 1]
+    seg_keys[flip] = seg_keys[flip][:, ::-1]
+    seg_pts[flip] = seg_pts[flip][:, ::-1]
+    seg_faces = np.stack([a[good], b[good]], axis=1)
+
+    curves, closed = _chain(seg_keys)
+    tp, tf, td = _triple_points(fr, seg_pts, seg_faces, topo)
+    return IntersectionResult(
+        segments=seg_pts,
+        segment_faces=seg_faces,
+        curves=curves,
+        curve_closed=closed,
+        triple_points=tp,
+        triple_faces=tf,
+        triple_detections=td,
+        degenerate_pairs=degenerate,
+        candidate_pairs=n_candidates,
+        broad_phase=broad,
+    )
+
+
+def _chain(seg_keys: np.ndarray) -> tuple[list[np.ndarray], list[bool]]:
+    """Chain segments that share an event key: (curves as ordered segment ids, closed flags)."""
+    s = seg_keys.shape[0]
+    if s == 0:
+        return [], []
+    flat = seg_keys.ravel()
+    order = np.argsort(flat, kind="stable")
+    sk = flat[order]
+    # each key normally appears exactly twice (two pairs share an event)
+    nbr = -np.ones(2 * s, np.int64)
+    same = np.flatnonzero(sk[1:] == sk[:-1])
+    # only match keys that appear exactly twice
+    if same.size:
+        cnt_ok = np.ones(same.size, bool)
+        cnt_ok &= ~np.isin(same - 1, same)
+        cnt_ok &= ~np.isin(same + 1, same)
+        same = same[cnt_ok]
+    e1, e2 = order[same], order[same + 1]
+    nbr[e1] = e2 // 2  # end slot -> neighbouring segment
+    nbr[e2] = e1 // 2
+    nb = nbr.reshape(s, 2).tolist()
+    seen = bytearray(s)
+    curves: list[np.ndarray] = []
+    closed: list[bool] = []
+
+    def walk(prev: int, cur: int) -> list[int]:
+        """Segments after ``cur``, walking away from ``prev``."""
+        out = []
+        while True:
+            n0, n1 = nb[cur]
+            nxt = n1 if n0 == prev else n0
+            if nxt < 0 or seen[nxt]:
+                return out
+            seen[nxt] = 1
+            out.append(nxt)
+            prev, cur = cur, nxt
+
+    for start in range(s):
+        if seen[start]:
+            continue
+        seen[start] = 1
+        n0, n1 = nb[start]
+        forward = walk(n1, start)
+        backward = walk(n0, start)
+        ids = backward[::-1] + [start] + forward
+        curves.append(np.array(ids, np.int64))
+        closed.append(len(ids) > 2 and all(nb[i][0] >= 0 and nb[i][1] >= 0 for i in ids))
+    return curves, closed
+
+
+def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo: MeshTopology):
+    """Segments of sheets (a, b) crossing a triangle c of a third sheet, merged into points."""
+    s = seg_pts.shape[0]
+    empty = (np.zeros((0, 3)), np.zeros((0, 3), np.int64), np.zeros(0, np.int64))
+    if s == 0:
+        return empty
+    m = topo.n_faces
+    # partners: triangles that intersect a given triangle (from the segment list)
+    owner = np.concatenate([seg_faces[:, 0], seg_faces[:, 1]])
+    other = np.concatenate([seg_faces[:, 1], seg_faces[:, 0]])
+    order = np.argsort(owner, kind="stable")
+    owner, other = owner[order], other[order]
+    starts = np.searchsorted(owner, np.arange(m + 1))
+    cand_seg, cand_tri = [], []
+    for side in range(2):
+        t = seg_faces[:, side]
+        cnt = starts[t + 1] - starts[t]
+        seg_id, local = _expand_ranges(cnt)
+        cand_seg.append(seg_id)
+        cand_tri.append(other[starts[t[seg_id]] + local])
+    seg_id = np.concatenate(cand_seg)
+    c = np.concatenate(cand_tri)
+    pair = np.unique(seg_id * m + c)
+    seg_id, c = pair // m, pair % m
+    fa, fb = seg_faces[seg_id, 0], seg_faces[seg_id, 1]
+    # the third sheet must not touch the first two (a local fold is not a triple point)
+    faces = fr.faces
+    touch = (c == fa) | (c == fb)
+    for i in range(3):
+        for j in range(3):
+            touch |= faces[c, i] == faces[fa, j]
+            touch |= faces[c, i] == faces[fb, j]
+    seg_id, c = seg_id[~touch], c[~touch]
+    if seg_id.size == 0:
+        return empty
+    X, Y = seg_pts[seg_id, 0], seg_pts[seg_id, 1]
+    ox = fr.plane_value(c, X)
+    oy = fr.plane_value(c, Y)
+    crosses = _sign(ox) != _sign(oy)
+    seg_id, c, X, Y, ox, oy = (v[crosses] for v in (seg_id, c, X, Y, ox, oy))
+    if seg_id.size == 0:
+        return empty
+    ins = fr.inside_line(c, X, Y)
+    seg_id, c, X, Y, ox, oy = (v[ins] for v in (seg_id, c, X, Y, ox, oy))
+    if seg_id.size == 0:
+        return empty
+    pts = X + (Y - X) * (ox / (ox - oy))[:, None]
+    trip = np.stack([seg_faces[seg_id, 0], seg_faces[seg_id, 1], c], axis=1)
+    # merge detections of one point: within a few local edge lengths
+    scale = np.sqrt(np.linalg.norm(fr.normal[trip[:, 2]], axis=1)) * 3.0
+    return _merge_points(pts, trip, scale)
+
+
+def _merge_points(pts: np.ndarray, trip: np.ndarray, scale: np.ndarray):
+    n = pts.shape[0]
+    label = np.arange(n)
+    d = np.linalg.norm(pts[:, None] - pts[None], axis=-1)
+    close = d <= np.maximum(scale[:, None], scale[None])
+    # connected components of the "close" graph (n is small: a few per triple point)
+    for _ in range(n):
+        new = np.min(np.where(close, label[None], n), axis=1)
+        if np.array_equal(new, label):
+            break
+        label = new
+    groups = np.unique(label)
+    centers = np.array([pts[label == g].mean(axis=0) for g in groups])
+    faces = np.array([trip[label == g][0] for g in groups], np.int64)
+    counts = np.array([np.sum(label == g) for g in groups], np.int64)
+    return centers.reshape(-1, 3), faces.reshape(-1, 3), counts

@@ -1,0 +1,241 @@
+"""Local metrics of one mesh frame, per element.
+
+:func:`frame_metrics` computes, for one frame of a fixed topology, every per-face, per-edge
+and per-vertex number the checker judges: pinch (area and shape relative to the first
+frame), crease (normal angle per edge and how concentrated it is), fold (agreement of face
+normals around each vertex), tight bend (discrete curvature), jump (move since the previous
+frame), plus the signed volume and the degree of the Gauss map. All of it is flat numpy
+over component arrays: no Python loop over elements.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .curvature import TINY, FaceFrame, curvature_of_frame, face_frame
+from .topology import MeshTopology
+
+_TWO_SQRT3 = 2.0 * np.sqrt(3.0)
+
+
+@dataclass(frozen=True)
+class ReferenceFrame:
+    """Rest quantities of the first frame, against which pinches are measured.
+
+    face_area : (M,) float64; face_quality : (M,) float64 in [0, 1]
+    """
+
+    face_area: np.ndarray
+    face_quality: np.ndarray
+
+
+def face_quality(ff: FaceFrame) -> np.ndarray:
+    """(M,) shape quality 2 sqrt(3) (2 area) / (sum of squared edges): 1 equilateral, 0 flat."""
+    return _TWO_SQRT3 * ff.dbl / np.maximum(ff.l0 + ff.l1 + ff.l2, TINY)
+
+
+def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    P = np.asarray(P, np.float64)
+    return tuple(np.ascontiguousarray(P[:, j]) for j in range(3))
+
+
+def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:
+    """ReferenceFrame of one frame P0 (V, 3)."""
+    ff = face_frame(*_components(P0), topo)
+    return ReferenceFrame(face_area=0.5 * ff.dbl, face_quality=face_quality(ff))
+
+
+@dataclass
+class FrameMetrics:
+    """Per-element metrics of one frame."""
+
+    area_ratio: np.ndarray  # (M,) face area / first-frame area
+    quality_ratio: np.ndarray  # (M,) shape quality / first-frame quality
+    crease_deg: np.ndarray  # (E,) angle between the two face normals at each edge, degrees
+    crease_concentration: np.ndarray  # (E,) crease angle / mean angle of the 4 wing edges
+    fold: np.ndarray  # (V,) min over incident faces of n_face . n_vertex (1 = flat fan)
+    bend_radius: np.ndarray  # (V,) 1 / max |k|, as a fraction of the frame's size
+    step: np.ndarray  # (V,) move since the previous frame / local edge length
+    local_length: np.ndarray  # (V,) mean length of the edges at each vertex
+    signed_volume: float  # NaN on a non-orientable mesh
+    degree: float  # degree of the Gauss map from vertex normals; NaN if non-orientable
+    size: float  # bounding-box diagonal
+    area: float
+
+
+def frame_metrics(
+    P: np.ndarray,
+    topo: MeshTopology,
+    ref: ReferenceFrame,
+    previous: np.ndarray | None = None,
+    previous_length: np.ndarray | None = None,
+    concentration_floor_deg: float = 1.0,
+    orientable: bool = True,
+) -> FrameMetrics:
+    """All local metrics of one frame P (V, 3).
+
+    previous : (V, 3) the frame before (None for the first frame: its steps are 0);
+    previous_length : (V,) that frame's ``local_length`` if already known.
+    concentration_floor_deg : floor for the wing mean, so flat parts do not divide by zero.
+    orientable : False skips the volume and degree (they need an orientation).
+    """
+    n = topo.n_vertices
+    used = topo.used_vertices
+    X, Y, Z = _components(P)
+    cx, cy, cz = X[used].mean(), Y[used].mean(), Z[used].mean()
+    X, Y, Z = X - cx, Y - cy, Z - cz  # centring: invariant results, better rounding
+    ff = face_frame(X, Y, Z, topo)
+    dbl = ff.dbl
+    inv = 1.0 / np.maximum(dbl, TINY)
+    unx, uny, unz = ff.nx * inv, ff.ny * inv, ff.nz * inv
+
+    area_ratio = (0.5 * dbl) / np.maximum(ref.face_area, TINY)
+    quality_ratio = face_quality(ff) / np.maximum(ref.face_quality, TINY)
+
+    # crease: angle between the unit normals of each edge's two faces; on a non-orientable
+    # mesh an edge traversed the same way by both faces compares n with -n.
+    fa, fb = topo.edge_face_columns
+    cosang = unx.take(fa) * unx.take(fb) + uny.take(fa) * uny.take(fb) + unz.take(fa) * unz.take(fb)
+    if not orientable or topo.edge_same_direction.any():
+        cosang = np.where(topo.edge_same_direction, -cosang, cosang)
+    crease = np.degrees(np.arccos(np.clip(cosang, -1.0, 1.0)))
+    if not topo.is_edge_manifold:
+        crease[~topo.manifold_edges] = 0.0
+    wings = topo.edge_wings
+    if topo.is_edge_manifold:
+        wing_mean = 0.25 * (
+            crease.take(wings[:, 0]) + crease.take(wings[:, 1])
+            + crease.take(wings[:, 2]) + crease.take(wings[:, 3])
+        )  # fmt: skip
+    else:
+        ok = wings >= 0
+        vals = np.where(ok, crease[np.maximum(wings, 0)], 0.0)
+        wing_mean = vals.sum(axis=1) / np.maximum(ok.sum(axis=1), 1)
+    concentration = crease / np.maximum(wing_mean, concentration_floor_deg)
+
+    # vertex normals (area weighted, fan-oriented) and fold agreement
+    idx = topo.corner_index_slot_major
+    signs = topo.corner_fan_signs
+    flat_fans = bool(np.all(signs == 1.0))
+    if flat_fans:
+        wx = np.concatenate([ff.nx, ff.nx, ff.nx])
+        wy = np.concatenate([ff.ny, ff.ny, ff.ny])
+        wz = np.concatenate([ff.nz, ff.nz, ff.nz])
+    else:
+        s = signs.T.ravel()
+        wx = s * np.concatenate([ff.nx, ff.nx, ff.nx])
+        wy = s * np.concatenate([ff.ny, ff.ny, ff.ny])
+        wz = s * np.concatenate([ff.nz, ff.nz, ff.nz])
+    vx = np.bincount(idx, wx, minlength=n)
+    vy = np.bincount(idx, wy, minlength=n)
+    vz = np.bincount(idx, wz, minlength=n)
+    vinv = 1.0 / np.maximum(np.sqrt(vx * vx + vy * vy + vz * vz), TINY)
+    vx, vy, vz = vx * vinv, vy * vinv, vz * vinv
+    cvx, cvy, cvz = vx.take(idx), vy.take(idx), vz.take(idx)  # (3M,) slot-major
+    unx3 = np.concatenate([unx, unx, unx])
+    uny3 = np.concatenate([uny, uny, uny])
+    unz3 = np.concatenate([unz, unz, unz])
+    corner_dot = cvx * unx3 + cvy * uny3 + cvz * unz3
+    if not flat_fans:
+        corner_dot = corner_dot * signs.T.ravel()
+    fold = np.ones(n)
+    starts = topo.vertex_corner_starts
+    if used.all():
+        fold = np.minimum.reduceat(corner_dot.take(topo.slot_major_corner_order), starts[:-1])
+    elif used.any():
+        red = np.minimum.reduceat(corner_dot.take(topo.slot_major_corner_order), starts[:-1][used])
+        fold[used] = red
+
+    # tight bend: 1 / (largest absolute principal curvature), relative to the frame's size
+    h, k = curvature_of_frame(ff, topo)
+    kmax = h + np.sqrt(np.maximum(h * h - k, 0.0))
+    if used.all():
+        size = float(np.sqrt(np.ptp(X) ** 2 + np.ptp(Y) ** 2 + np.ptp(Z) ** 2))
+    else:
+        size = float(np.sqrt(np.ptp(X[used]) ** 2 + np.ptp(Y[used]) ** 2 + np.ptp(Z[used]) ** 2))
+    bend = 1.0 / (np.maximum(kmax, TINY) * max(size, TINY))
+    if not used.all():
+        bend[~used] = np.inf
+
+    # local edge length: mean over the corners' two edges (each edge counted from both faces)
+    s0, s1, s2 = np.sqrt(ff.l0), np.sqrt(ff.l1), np.sqrt(ff.l2)
+    local_len = np.bincount(idx, np.concatenate([s0 + s2, s1 + s0, s2 + s1]), minlength=n) / (
+        2.0 * np.maximum(topo.vertex_degree, 1)
+    )
+    if previous is None:
+        step = np.zeros(n)
+    else:
+        Q = np.asarray(previous, np.float64)
+        dx = X + cx - Q[:, 0]
+        dy = Y + cy - Q[:, 1]
+        dz = Z + cz - Q[:, 2]
+        if previous_length is None:
+            pff = face_frame(*_components(Q), topo)
+            q0, q1, q2 = np.sqrt(pff.l0), np.sqrt(pff.l1), np.sqrt(pff.l2)
+            previous_length = np.bincount(
+                idx, np.concatenate([q0 + q2, q1 + q0, q2 + q1]), minlength=n
+            ) / (2.0 * np.maximum(topo.vertex_degree, 1))
+        step = np.sqrt(dx * dx + dy * dy + dz * dz) / np.maximum(
+            0.5 * (local_len + previous_length), TINY
+        )
+        if not used.all():
+            step[~used] = 0.0
+
+    if orientable:
+        volume = float(np.dot(ff.x0, ff.nx) + np.dot(ff.y0, ff.ny) + np.dot(ff.z0, ff.nz)) / 6.0
+        # degree: signed solid angles of the spherical triangles spanned by vertex normals
+        # (Van Oosterom & Strackee, "The solid angle of a plane triangle", 1983)
+        f0, f1, f2 = topo.corner_columns
+        m = topo.n_faces
+        ax, ay, az = cvx[:m], cvy[:m], cvz[:m]
+        bx, by, bz = cvx[m : 2 * m], cvy[m : 2 * m], cvz[m : 2 * m]
+        qx, qy, qz = cvx[2 * m :], cvy[2 * m :], cvz[2 * m :]
+        triple = ax * (by * qz - bz * qy) + ay * (bz * qx - bx * qz) + az * (bx * qy - by * qx)
+        den = 1.0 + (ax * bx + ay * by + az * bz) + (bx * qx + by * qy + bz * qz)
+        den += qx * ax + qy * ay + qz * az
+        degree = float(2.0 * np.arctan2(triple, den).sum() / (4 * np.pi))
+    else:
+        volume = float("nan")
+        degree = float("nan")
+    return FrameMetrics(
+        area_ratio=area_ratio,
+        quality_ratio=quality_ratio,
+        crease_deg=crease,
+        crease_concentration=concentration,
+        fold=fold,
+        bend_radius=bend,
+        step=step,
+        local_length=local_len,
+        signed_volume=volume,
+        degree=degree,
+        size=size,
+        area=float(0.5 * dbl.sum()),
+    )
+
+
+def signed_volume(positions, faces) -> float:
+    """Signed enclosed volume of one closed mesh: positive for outward orientation.
+
+    positions : (V, 3) float; faces : (M, 3) int. Sum over faces of p0 . (p1 x p2) / 6
+    (divergence theorem), after centring for rounding.
+    """
+    p = np.asarray(positions, np.float64)
+    f = np.asarray(faces, np.int64)
+    p = p - p[np.unique(f)].mean(axis=0)
+    a, b, c = p[f[:, 0]], p[f[:, 1]], p[f[:, 2]]
+    return float(np.einsum("mi,mi->", a, np.cross(b, c)) / 6.0)
+
+
+def gauss_map_degree(positions, faces) -> float:
+    """Degree of the Gauss map of one closed oriented mesh from area-weighted vertex normals.
+
+    The vertex normals span a spherical triangle per face; the signed solid angles sum to
+    4 pi times the degree (an integer unless neighbouring normals are nearly opposite).
+    Hopf: the degree is half the Euler characteristic for an immersed closed oriented
+    surface (H. Hopf, "Über die Curvatura integra geschlossener Hyperflächen", Math. Ann. 1926).
+    """
+    P = np.asarray(positions, np.float64)
+    topo = faces if isinstance(faces, MeshTopology) else MeshTopology(faces, P.shape[0])
+    return frame_metrics(P, topo, reference_frame(P, topo)).degree
