@@ -3,7 +3,7 @@
     python blend_samples/make_samples.py            # with the bpy module installed
     blender -b -P blend_samples/make_samples.py     # inside Blender, from a source checkout
 
-default_eversion.blend  the default controls on a coarse mesh (96 x 47), 120 frames
+default_eversion.blend  the default controls on a coarse mesh (96 x 48), 120 frames
 fast_preview.blend      a light version for quick looks (Workbench settings)
 broken_pinch.blend      a hand-made shape-key animation with a pinch and a spike, which the
                         checker must flag (for trying the Check panel)
@@ -47,7 +47,7 @@ def make_default(path: str) -> None:
         Controls(),
         frames=120,
         key_step=1,
-        mesh=uniform_sphere_mesh(96, 47),
+        mesh=uniform_sphere_mesh(96, 48),
         size=(640, 480),
         samples=64,
     )
@@ -64,7 +64,7 @@ def make_preview(path: str) -> None:
         Controls(),
         frames=48,
         key_step=4,
-        mesh=uniform_sphere_mesh(48, 23),
+        mesh=uniform_sphere_mesh(64, 24),
         engine="workbench",
         size=(320, 240),
     )

@@ -84,13 +84,13 @@ def run_python(
     return proc
 
 
-def small_mesh(n_lon: int = 32, n_lat: int = 15):
+def small_mesh(n_lon: int = 64, n_lat: int = 16):
     from turnabout.mesh import uniform_sphere_mesh
 
     return uniform_sphere_mesh(n_lon, n_lat)
 
 
-def set_small_build(settings, frames=12, key_step=1, frame_start=1, n_lon=32, n_lat=15) -> None:
+def set_small_build(settings, frames=12, key_step=1, frame_start=1, n_lon=64, n_lat=16) -> None:
     settings.frames = frames
     settings.key_step = key_step
     settings.frame_start = frame_start

@@ -133,6 +133,7 @@ def test_rebuild_updates_the_object_in_place_without_orphan_data():
     name, mesh_name = ob.name, ob.data.name
     before = counts()
     s.strips = 10
+    s.mesh_lon = 80  # the construction wants a multiple of the strips
     s.frames = 17
     s.key_step = 3
     assert bpy.ops.turnabout.rebuild() == {"FINISHED"}

@@ -36,7 +36,7 @@ def test_first_frame_shows_only_the_outer_colour_and_last_only_the_inner(tmp_pat
     headless.build_scene(
         Controls(),
         frames=6,
-        mesh=uniform_sphere_mesh(48, 23),
+        mesh=uniform_sphere_mesh(64, 24),
         engine="cycles",
         size=(64, 48),
         samples=8,
@@ -61,7 +61,7 @@ def test_scene_and_render_commands_render_ranges_and_resume(tmp_path, capsys):
     from turnabout.cli import main
 
     blend = str(tmp_path / "shot.blend")
-    assert main(["scene", blend, "--frames", "6", "--mesh", "16x7", "--quiet"]) == 0
+    assert main(["scene", blend, "--frames", "6", "--mesh", "64x16", "--quiet"]) == 0
     assert os.path.isfile(blend)
     out = str(tmp_path / "png")
     args = ["render", blend, out, "--size", "32x24", "--samples", "2", "--quiet"]
@@ -93,7 +93,7 @@ def test_bad_command_input_gets_a_clear_message(tmp_path, capsys, argv, message)
     from turnabout.cli import main
 
     blend = str(tmp_path / "ok.blend")
-    assert main(["scene", blend, "--frames", "3", "--mesh", "8x3", "--quiet"]) == 0
+    assert main(["scene", blend, "--frames", "3", "--mesh", "64x16", "--quiet"]) == 0
     capsys.readouterr()
     fill = {"blend": blend, "out": str(tmp_path / "o"), "tmp": str(tmp_path)}
     assert main([a.format(**fill) for a in argv] + ["--quiet"]) == 2
@@ -115,7 +115,7 @@ def test_run_headless_script_writes_a_scene(tmp_path):
             "--frames",
             "4",
             "--mesh",
-            "12x5",
+            "64x16",
             "--quiet",
         ],
         capture_output=True,
@@ -125,3 +125,67 @@ def test_run_headless_script_writes_a_scene(tmp_path):
     )
     assert proc.returncode == 0, proc.stderr
     assert os.path.isfile(blend)
+
+
+@pytest.mark.usefixtures("blank")
+def test_strip_tint_marks_every_other_strip_and_both_sides_keep_their_colours():
+    s = bpy.context.scene.turnabout
+    s.frames, s.mesh_lon, s.mesh_lat = 4, 64, 16
+    s.strips = 8
+    s.colour_strips = True
+    bpy.ops.turnabout.add_eversion()
+    ob = bpy.context.active_object
+    me = ob.data
+    guide = np.empty(len(me.polygons), np.float32)
+    me.attributes["turnabout_guide"].data.foreach_get("value", guide)
+    ring = guide[:64]  # the first ring of quads, in longitude order
+    changes = int(np.sum(ring != np.roll(ring, 1)))
+    assert changes == 2 * 8  # 8 guide strips alternating with 8 corrugated strips
+    nodes = me.materials[0].node_tree.nodes
+    assert nodes["Guide strips"].attribute_name == "turnabout_guide"
+    assert tuple(nodes["Outer side"].outputs[0].default_value) == pytest.approx(
+        tuple(s.outer_colour)
+    )
+    assert tuple(nodes["Inner side"].outputs[0].default_value) == pytest.approx(
+        tuple(s.inner_colour)
+    )
+    # switching the tint off and new colours update the same material in place
+    s.colour_strips = False
+    s.outer_colour = (0.2, 0.8, 0.2, 1.0)
+    n_materials = len(bpy.data.materials)
+    bpy.ops.turnabout.apply_look()
+    assert len(bpy.data.materials) == n_materials
+    assert nodes["Guide strips"].attribute_name == ""
+    assert tuple(nodes["Outer side"].outputs[0].default_value) == pytest.approx(
+        (0.2, 0.8, 0.2, 1.0)
+    )
+
+
+@pytest.mark.usefixtures("blank")
+def test_alembic_and_usd_exports_write_the_animation(tmp_path):
+    s = bpy.context.scene.turnabout
+    s.frames, s.mesh_lon, s.mesh_lat = 5, 64, 16
+    bpy.ops.turnabout.add_eversion()
+    abc, usd = tmp_path / "ev.abc", tmp_path / "ev.usdc"
+    assert bpy.ops.turnabout.export_alembic(filepath=str(abc)) == {"FINISHED"}
+    assert bpy.ops.turnabout.export_usd(filepath=str(usd)) == {"FINISHED"}
+    assert abc.stat().st_size > 1000 and usd.stat().st_size > 1000
+
+
+@pytest.mark.skipif(
+    __import__("importlib").util.find_spec("turnabout.check") is None
+    or not hasattr(__import__("turnabout.check", fromlist=["x"]), "check_animation"),
+    reason="the core checker is not available",
+)
+@pytest.mark.usefixtures("blank")
+def test_demo_writes_a_blend_a_report_and_previews(tmp_path, capsys):
+    from turnabout.cli import main
+
+    out = tmp_path / "demo"
+    argv = ["demo", "--out", str(out), "--frames", "8", "--mesh", "64x16", "--previews", "2"]
+    assert main(argv + ["--size", "32x24", "--samples", "2", "--quiet"]) == 0
+    said = capsys.readouterr().out
+    assert str(out) in said
+    assert (out / "eversion.blend").is_file()
+    assert (out / "eversion_Eversion_check.json").is_file()
+    assert sorted(os.listdir(out / "preview")) == ["frame_0001.png", "frame_0008.png"]
