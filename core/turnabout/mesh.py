@@ -73,13 +73,13 @@ class SphereMesh:
         return np.concatenate([tris[: self.n_lon], split, tris[self.n_lon :]]).astype(np.int32)
 
     def uv(self) -> np.ndarray:
-        """Per-vertex texture coordinates, (V, 2) float32: u = theta / 2pi, v = (lat + pi/2) / pi."""
+        """Per-vertex texture coordinates, (V, 2) float32: u = theta/2pi, v = (lat + pi/2)/pi."""
         th, la = self.vertex_params
         return np.stack([th / (2 * np.pi), (la + np.pi / 2) / np.pi], axis=-1).astype(np.float32)
 
 
 def uniform_sphere_mesh(n_lon: int, n_lat: int) -> SphereMesh:
-    """A sphere mesh with ``n_lon`` equal longitude steps and ``n_lat`` rings at equal latitude steps."""
+    """A sphere mesh of ``n_lon`` equal longitude steps and ``n_lat`` equally spaced rings."""
     if n_lon < 3 or n_lat < 1:
         raise ValueError(f"a sphere mesh needs n_lon >= 3 and n_lat >= 1, got {n_lon} x {n_lat}")
     theta = np.arange(n_lon) * (2 * np.pi / n_lon)

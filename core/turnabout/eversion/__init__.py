@@ -8,6 +8,7 @@ Public API::
     ev = build(controls, frames=120)          # Eversion: positions float32, faces, uv, times
 """
 
+from .build import Eversion, build, check_resolution, default_mesh, evaluate
 from .controls import (
     MAX_STRIPS,
     MIN_STRIPS,
@@ -18,7 +19,7 @@ from .controls import (
     default_depth,
     depth_range,
 )
-from .build import Eversion, build, default_mesh, evaluate
+from .regularity import RegularityError, RegularityReport, quick_scan, scan
 
 __all__ = [
     "MAX_STRIPS",
@@ -33,4 +34,9 @@ __all__ = [
     "default_mesh",
     "depth_range",
     "evaluate",
+    "check_resolution",
+    "RegularityError",
+    "RegularityReport",
+    "quick_scan",
+    "scan",
 ]

@@ -6,10 +6,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..mesh import SphereMesh, uniform_sphere_mesh
+from ..mesh import SphereMesh
 from ..progress import ProgressFn, no_progress
-from .controls import Controls, ControlError
 from . import construction
+from .controls import ControlError, Controls
+from .regularity import require_regular
+
+MIN_SAMPLES_PER_WAVE = 8
+MIN_LAT_RINGS = 16
+MAX_VERTICES = 4_000_000
 
 
 @dataclass(frozen=True)
@@ -30,17 +35,53 @@ class Eversion:
     times: np.ndarray
 
 
-def default_mesh(controls: Controls, n_lon: int | None = None, n_lat: int | None = None) -> SphereMesh:
-    """The default sphere mesh for these controls (see construction.mesh_for)."""
-    return construction.mesh_for(controls, n_lon=n_lon, n_lat=n_lat)
+def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
+    """Refuse meshes too coarse for the waves or too large to hold."""
+    for name, v in (("longitude samples", n_lon), ("latitude rings", n_lat)):
+        if isinstance(v, bool) or not isinstance(v, (int, np.integer)):
+            raise ControlError(name, f"must be an integer, got {v!r}")
+    need = MIN_SAMPLES_PER_WAVE * controls.strips
+    if n_lon < need or n_lon % controls.strips:
+        raise ControlError(
+            "longitude samples",
+            f"must be a multiple of strips ({controls.strips}) and at least {need} "
+            f"({MIN_SAMPLES_PER_WAVE} samples per wave), got {n_lon}",
+        )
+    if n_lat < MIN_LAT_RINGS:
+        raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
+    if n_lon * n_lat + 2 > MAX_VERTICES:
+        raise ControlError(
+            "resolution",
+            f"{n_lon} x {n_lat} gives {n_lon * n_lat + 2} vertices; at most {MAX_VERTICES}",
+        )
 
 
-def evaluate(controls: Controls, times, mesh: SphereMesh, progress: ProgressFn = no_progress) -> np.ndarray:
-    """Vertex positions at each time, (len(times), V, 3) float64."""
+def default_mesh(
+    controls: Controls, n_lon: int | None = None, n_lat: int | None = None
+) -> SphereMesh:
+    """The default sphere mesh for these controls (32 samples per strip x 127 rings)."""
+    mesh = construction.mesh_for(controls, n_lon=n_lon, n_lat=n_lat)
+    check_resolution(controls, mesh.n_lon, mesh.n_lat)
+    return mesh
+
+
+def _check_times(times) -> np.ndarray:
     times = np.atleast_1d(np.asarray(times, dtype=np.float64))
-    if not np.all(np.isfinite(times)) or times.min(initial=0) < 0 or times.max(initial=0) > 1:
+    if (
+        times.ndim != 1
+        or not np.all(np.isfinite(times))
+        or times.min(initial=0) < 0
+        or times.max(initial=0) > 1
+    ):
         raise ControlError("times", "every time must be a finite number in [0, 1]")
-    th, la = mesh.vertex_params
+    return times
+
+
+def evaluate(
+    controls: Controls, times, mesh: SphereMesh, progress: ProgressFn = no_progress
+) -> np.ndarray:
+    """Vertex positions at each time, (len(times), V, 3) float64 (no regularity check)."""
+    times = _check_times(times)
     out = np.empty((times.size, mesh.n_vertices, 3))
     for k, t in enumerate(times):
         out[k] = construction.positions_at(controls, float(t), mesh)
@@ -53,11 +94,22 @@ def build(
     frames: int = 120,
     mesh: SphereMesh | None = None,
     progress: ProgressFn = no_progress,
+    check: bool = True,
 ) -> Eversion:
-    """Bake ``frames`` evenly spaced frames from t = 0 to t = 1."""
+    """Bake ``frames`` evenly spaced frames from t = 0 to t = 1.
+
+    Runs the fast regularity check first (cached per controls) and raises
+    :class:`~turnabout.eversion.regularity.RegularityError` for controls that fail it.
+    """
     if isinstance(frames, bool) or not isinstance(frames, (int, np.integer)) or frames < 2:
         raise ControlError("frames", f"must be an integer >= 2, got {frames!r}")
     mesh = default_mesh(controls) if mesh is None else mesh
+    check_resolution(controls, mesh.n_lon, mesh.n_lat)
+    if check:
+        require_regular(controls)
     times = np.linspace(0.0, 1.0, int(frames))
-    pos = evaluate(controls, times, mesh, progress=progress).astype(np.float32)
+    pos = np.empty((times.size, mesh.n_vertices, 3), dtype=np.float32)
+    for k, t in enumerate(times):
+        pos[k] = construction.positions_at(controls, float(t), mesh)
+        progress(k + 1, times.size)
     return Eversion(controls, mesh, pos, mesh.triangles(), mesh.uv(), times)

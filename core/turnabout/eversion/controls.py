@@ -86,15 +86,14 @@ class Controls:
         return out
 
 
-def default_depth(strips: int) -> float:
+def default_depth(strips: int) -> float:  # noqa: ARG001 - kept per strip count for later tuning
     """The documented corrugation depth for a strip count (fraction of the radius)."""
-    return 0.1 * 8.0 / max(strips, 1) ** 0.5 / 8.0**0.5
+    return 0.1
 
 
-def depth_range(strips: int) -> tuple[float, float]:
-    """Allowed corrugation depth (inclusive) for a strip count."""
-    d = default_depth(strips)
-    return (0.5 * d, 1.5 * d)
+def depth_range(strips: int) -> tuple[float, float]:  # noqa: ARG001
+    """Allowed corrugation depth (inclusive) for a strip count, as a fraction of the radius."""
+    return (0.05, 0.15)
 
 
 def _finite(option: str, value) -> float:
@@ -113,7 +112,9 @@ def validate(c: Controls) -> None:
     if isinstance(s, bool) or not isinstance(s, int):
         if isinstance(s, float) and math.isfinite(s) and s.is_integer():
             raise ControlError("strips", f"must be an integer, got the float {s!r}")
-        raise ControlError("strips", f"must be an integer from {MIN_STRIPS} to {MAX_STRIPS}, got {s!r}")
+        raise ControlError(
+            "strips", f"must be an integer from {MIN_STRIPS} to {MAX_STRIPS}, got {s!r}"
+        )
     if not MIN_STRIPS <= s <= MAX_STRIPS:
         raise ControlError("strips", f"must be from {MIN_STRIPS} to {MAX_STRIPS}, got {s}")
     if c.depth is not None:
@@ -127,8 +128,9 @@ def validate(c: Controls) -> None:
         missing = [n for n in STAGE_NAMES if n not in c.timing]
         extra = [n for n in c.timing if n not in STAGE_NAMES]
         raise ControlError(
-            "timing", f"needs exactly the stages {', '.join(STAGE_NAMES)}; "
-            f"missing {missing or 'none'}, unknown {extra or 'none'}"
+            "timing",
+            f"needs exactly the stages {', '.join(STAGE_NAMES)}; "
+            f"missing {missing or 'none'}, unknown {extra or 'none'}",
         )
     prev_start = prev_end = 0.0
     for name in STAGE_NAMES:
@@ -141,7 +143,8 @@ def validate(c: Controls) -> None:
             raise ControlError(name, f"needs 0 <= start < end <= 1, got ({a:g}, {b:g})")
         if a < prev_start or b < prev_end:
             raise ControlError(
-                name, f"must not start or end before the previous stage; got ({a:g}, {b:g}) "
-                f"after a stage spanning ({prev_start:g}, {prev_end:g})"
+                name,
+                f"must not start or end before the previous stage; got ({a:g}, {b:g}) "
+                f"after a stage spanning ({prev_start:g}, {prev_end:g})",
             )
         prev_start, prev_end = a, b

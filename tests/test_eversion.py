@@ -1,0 +1,191 @@
+"""The corrugated eversion: end states, symmetry, derivatives, controls and output."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from turnabout.cli import main
+from turnabout.eversion import ControlError, Controls, build, check_resolution, evaluate
+from turnabout.eversion import construction as C
+from turnabout.eversion.regularity import scan, scan_times
+from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+
+SMALL = uniform_sphere_mesh(96, 47)
+
+
+def _signed_volume(P, faces):
+    a, b, c = P[faces[:, 0]], P[faces[:, 1]], P[faces[:, 2]]
+    return np.einsum("ij,ij->i", a, np.cross(b, c)).sum() / 6.0
+
+
+def test_time_zero_is_the_round_unit_sphere_with_outward_orientation():
+    P = evaluate(Controls(), [0.0], SMALL)[0]
+    assert np.allclose(P, round_sphere_positions(SMALL), atol=1e-12)
+    assert _signed_volume(P, SMALL.triangles()) > 0
+
+
+def test_final_frame_is_the_sphere_with_reversed_orientation():
+    P0, P1 = evaluate(Controls(), [0.0, 1.0], SMALL)
+    assert np.allclose(np.linalg.norm(P1, axis=1), 1.0, atol=1e-12)
+    faces = SMALL.triangles()
+    # the antipodal map reverses orientation: signed volume changes sign
+    assert np.isclose(_signed_volume(P1, faces), -_signed_volume(P0, faces), rtol=1e-12)
+
+
+def test_volume_of_the_first_frame_approaches_four_thirds_pi():
+    # Volume of the unit ball 4*pi/3 (Archimedes); an inscribed mesh converges as O(h^2).
+    errs = []
+    for n in (32, 64, 128):
+        m = uniform_sphere_mesh(n, n // 2 - 1)
+        P = evaluate(Controls(), [0.0], m)[0]
+        errs.append(abs(_signed_volume(P, m.triangles()) - 4 * np.pi / 3))
+    assert errs[0] > errs[1] > errs[2]
+    assert errs[1] / errs[2] > 3.0  # second order: halving h divides the error by ~4
+
+
+@pytest.mark.parametrize("strips", [8, 11, 16])
+def test_every_frame_is_invariant_under_rotation_by_one_strip(strips):
+    ctl = Controls(strips=strips)
+    m = uniform_sphere_mesh(8 * strips, 31)
+    for t in (0.1, 0.33, 0.5, 0.68, 0.9):
+        P = evaluate(ctl, [t], m)[0]
+        ring = P[1:-1].reshape(m.n_lat, m.n_lon, 3)
+        a = 2 * np.pi / strips
+        rot = np.array([[np.cos(a), -np.sin(a), 0], [np.sin(a), np.cos(a), 0], [0, 0, 1]])
+        shifted = np.roll(ring, -(m.n_lon // strips), axis=1)  # theta + 2 pi / n
+        assert np.abs(shifted - ring @ rot.T).max() < 1e-6
+
+
+def test_jacobian_matches_finite_differences():
+    ctl = Controls()
+    theta = np.linspace(0.01, 2 * np.pi, 37)
+    lat = np.linspace(-1.5, 1.5, 29)
+    h = 1e-6
+    for t in (0.05, 0.3, 0.45, 0.62, 0.7, 0.95):
+        F, Ft, Fl = C.jacobian(ctl, t, theta, lat)
+        assert np.allclose(F, C.surface(ctl, t, theta, lat), atol=1e-14)
+        fd_t = (C.surface(ctl, t, theta + h, lat) - C.surface(ctl, t, theta - h, lat)) / (2 * h)
+        fd_l = (C.surface(ctl, t, theta, lat + h) - C.surface(ctl, t, theta, lat - h)) / (2 * h)
+        scale = 1 + np.abs(Fl).max()
+        assert np.abs(fd_t - Ft).max() < 1e-6 * scale
+        assert np.abs(fd_l - Fl).max() < 1e-6 * scale
+
+
+def test_motion_has_continuous_velocity_at_stage_boundaries():
+    ctl = Controls()
+    theta, lat = np.linspace(0, 2 * np.pi, 24), np.linspace(-1.4, 1.4, 15)
+    h = 1e-6
+    for t in scan_times(ctl, 2)[1:-1]:
+        v_left = (C.surface(ctl, t, theta, lat) - C.surface(ctl, t - h, theta, lat)) / h
+        v_right = (C.surface(ctl, t + h, theta, lat) - C.surface(ctl, t, theta, lat)) / h
+        # a velocity jump would be O(1); one-sided differences differ by O(h * acceleration)
+        assert np.abs(v_left - v_right).max() < 1e-3 * (1 + np.abs(v_left).max())
+
+
+@pytest.mark.parametrize(
+    "kwargs, option",
+    [
+        ({"strips": 3}, "strips"),
+        ({"strips": 8.0}, "strips"),
+        ({"strips": "8"}, "strips"),
+        ({"depth": 0.9}, "depth"),
+        ({"depth": float("nan")}, "depth"),
+        ({"depth": float("inf")}, "depth"),
+        ({"timing": {**Controls().timing, "swap": (0.5, 0.4)}}, "swap"),
+        ({"timing": {**Controls().timing, "calm": (0.9, 1.2)}}, "calm"),
+        ({"timing": {**Controls().timing, "twist": (0.05, 0.2)}}, "twist"),
+        ({"timing": {**Controls().timing, "tuck": (float("nan"), 0.9)}}, "tuck start"),
+    ],
+)
+def test_bad_controls_are_refused_naming_the_option(kwargs, option):
+    with pytest.raises(ControlError) as exc:
+        Controls(**kwargs)
+    assert exc.value.option == option
+    assert option in str(exc.value)
+
+
+def test_too_coarse_resolution_and_too_few_frames_are_refused():
+    with pytest.raises(ControlError, match="samples per wave"):
+        check_resolution(Controls(), 40, 64)
+    with pytest.raises(ControlError, match="frames"):
+        build(Controls(), frames=1, mesh=SMALL)
+
+
+def test_same_inputs_give_byte_identical_npz(tmp_path):
+    a, b = tmp_path / "a.npz", tmp_path / "b.npz"
+    args = ["build", "--frames", "3", "--lon", "64", "--lat", "31", "--quiet"]
+    assert main([*args, "--out", str(a)]) == 0
+    assert main([*args, "--out", str(b)]) == 0
+    assert a.read_bytes() == b.read_bytes()
+    with np.load(a, allow_pickle=False) as z:
+        assert z["positions"].shape == (3, 64 * 31 + 2, 3) and z["positions"].dtype == np.float32
+        assert z["faces"].dtype == np.int32 and z["faces"].shape[1] == 3
+        assert z["uv"].shape == (64 * 31 + 2, 2) and z["times"].dtype == np.float64
+
+
+@pytest.mark.parametrize(
+    "extra",
+    [
+        ["--strips", "5"],
+        ["--depth", "2"],
+        ["--swap", "0.6,0.2"],
+        ["--frames", "1"],
+        ["--lon", "24"],
+        ["--depth", "nan"],
+    ],
+)
+def test_cli_refuses_bad_input_without_writing_a_file(tmp_path, capsys, extra):
+    out = tmp_path / "x.npz"
+    assert main(["build", "--quiet", "--out", str(out), *extra]) == 2
+    assert not out.exists()
+    assert "turnabout build:" in capsys.readouterr().err
+
+
+def test_obj_and_ply_outputs(tmp_path):
+    assert (
+        main(
+            [
+                "build",
+                "--quiet",
+                "--frames",
+                "2",
+                "--lon",
+                "64",
+                "--lat",
+                "17",
+                "--format",
+                "obj",
+                "--out",
+                str(tmp_path / "obj"),
+            ]
+        )
+        == 0
+    )
+    assert (
+        main(
+            [
+                "build",
+                "--quiet",
+                "--frames",
+                "2",
+                "--lon",
+                "64",
+                "--lat",
+                "17",
+                "--format",
+                "ply",
+                "--out",
+                str(tmp_path / "ply"),
+            ]
+        )
+        == 0
+    )
+    assert len(list((tmp_path / "obj").glob("*.obj"))) == 2
+    assert len(list((tmp_path / "ply").glob("*.ply"))) == 2
+
+
+def test_scan_reports_the_round_sphere_ratio_as_one_at_time_zero():
+    rep = scan(Controls(), n_theta=64, n_lat=33, n_times=2, curvature=True)
+    assert np.isclose(rep.ratio_per_time[0], 1.0, atol=1e-6)
+    assert np.isclose(rep.curvature_per_time[0], 1.0, atol=1e-3)  # unit sphere: k = 1/R
+    assert rep.pole_min_ratio > 0.99
