@@ -43,6 +43,7 @@ def main(argv=None) -> int:
 
     from turnabout.eversion import Controls, build
     from turnabout.mesh import uniform_sphere_mesh
+
     from turnabout_blender import bake, checking, headless
 
     n_lon, n_lat = (int(v) for v in args.mesh.split("x"))
@@ -85,8 +86,10 @@ def main(argv=None) -> int:
     t_set = _best(raw_set, args.repeat)
     t_raw = _best(raw_keys, args.repeat)
     t_ours = _best(ours, args.repeat)
-    print(f"bake   ours {t_ours:.3f} s | shape_key_add+foreach_set {t_raw:.3f} s | "
-          f"foreach_set only {t_set:.3f} s")
+    print(
+        f"bake   ours {t_ours:.3f} s | shape_key_add+foreach_set {t_raw:.3f} s | "
+        f"foreach_set only {t_set:.3f} s"
+    )
     print(f"bake   ratio ours / (shape_key_add+foreach_set) = {t_ours / t_raw:.2f}  (goal <= 1.5)")
     print(f"bake   ratio ours / foreach_set into existing keys = {t_ours / t_set:.1f}  (for scale)")
 
