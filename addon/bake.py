@@ -229,6 +229,7 @@ def write_pc2(path: str, chunks, n_points: int, n_samples: int, start: float = 0
                 written += len(block)
         if written != n_samples:
             raise BakeError(f"point cache: wrote {written} samples, expected {n_samples}")
+        os.chmod(tmp, 0o644)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

@@ -198,6 +198,7 @@ def _atomic_write(path: str, writer) -> None:
     os.close(fd)
     try:
         writer(tmp)
+        os.chmod(tmp, 0o644)  # mkstemp makes files private; reports are for sharing
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
@@ -342,7 +343,7 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
     cur = int(np.clip(scene.frame_current - start, 0, len(frames) - 1))
     for name, values in table.items():
         prop = METRIC_PREFIX + name
-        finite = np.nan_to_num(values, nan=0.0, posinf=1e30, neginf=-1e30)
+        finite = np.clip(np.nan_to_num(values, nan=0.0, posinf=1e30, neginf=-1e30), -1e30, 1e30)
         ob[prop] = float(finite[cur])
         ob.id_properties_ui(prop).update(description=f"Turnabout check metric '{name}' per frame")
         _set_fcurve(action, ob, f'["{prop}"]', frames.astype(np.float64), finite)

@@ -6,6 +6,7 @@ or inside ``blender -b -P addon/run_headless.py -- ...``.
 
 from __future__ import annotations
 
+import math
 import os
 import re
 import tempfile
@@ -49,9 +50,28 @@ def look_settings(outer=OUTER_COLOUR, inner=INNER_COLOUR, strips=False, tint=GUI
     )
 
 
-def add_stage(scene, distance: float = 4.6, height: float = 1.2):
-    """Camera aimed at the origin, a key and a fill light, a dark neutral world."""
+def extent_of(ob) -> float:
+    """Largest distance from the origin reached by any stored shape of ``ob`` (1.0 if none)."""
+    key = ob.data.shape_keys if ob.type == "MESH" else None
+    blocks = list(key.key_blocks) if key is not None else []
+    if not blocks:
+        return 1.0
+    buf = np.empty(len(ob.data.vertices) * 3, np.float32)
+    r = 0.0
+    for kb in blocks:
+        kb.points.foreach_get("co", buf)
+        r = max(r, float(np.sqrt((buf.reshape(-1, 3) ** 2).sum(axis=1).max())))
+    return r
+
+
+def add_stage(scene, radius: float = 1.0, aspect: float = 4 / 3):
+    """Camera aimed at the origin framing a ball of ``radius``, two lights, a dark world."""
     from mathutils import Vector
+
+    # 50 mm lens on a 36 mm sensor: half field of view along the shorter side
+    half = math.atan(18.0 / 50.0 / max(aspect, 1.0 / aspect))
+    distance = 1.08 * max(radius, 0.5) / math.sin(half)
+    height = 0.25 * distance
 
     cam_data = bpy.data.cameras.get(CAMERA_NAME) or bpy.data.cameras.new(CAMERA_NAME)
     cam_data.lens = 50.0
@@ -249,7 +269,7 @@ def build_scene(
     look.apply_look(ob, look_options or look_settings())
     bake.set_scene_range(scene, plan)
     scene.frame_set(plan.frame_start)
-    add_stage(scene)
+    add_stage(scene, extent_of(ob), size[0] / size[1])
     bpy.context.view_layer.objects.active = ob
     ob.select_set(True)
     return ob

@@ -73,7 +73,7 @@ def make_preview(path: str) -> None:
 
 # hand-made keyframes: (shape key, [(frame, value), ...])
 BROKEN_KEYS = (
-    ("Squash", [(1, 0.0), (12, 1.0), (24, 0.0)]),
+    ("Squash", [(1, 0.0), (6, 1.0), (11, 0.0)]),
     ("Pinch", [(14, 0.0), (18, 1.0), (22, 0.0)]),
     ("Spike", [(30, 0.0), (32, 1.0), (34, 0.0)]),
 )
@@ -123,7 +123,7 @@ def make_broken(path: str) -> None:
     scene.frame_start, scene.frame_end = BROKEN_RANGE
     scene.frame_set(1)
     headless.configure_render(scene, "cycles", (320, 240), 16)
-    headless.add_stage(scene)
+    headless.add_stage(scene, headless.extent_of(ob))
     bpy.context.view_layer.objects.active = ob
     ob.select_set(True)
     headless.save_blend(path)
