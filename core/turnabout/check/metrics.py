@@ -83,9 +83,9 @@ def frame_metrics(
     """
     n = topo.n_vertices
     used = topo.used_vertices
-    X, Y, Z = _components(P)
-    cx, cy, cz = X[used].mean(), Y[used].mean(), Z[used].mean()
-    X, Y, Z = X - cx, Y - cy, Z - cz  # centring: invariant results, better rounding
+    X0, Y0, Z0 = _components(P)
+    cx, cy, cz = X0[used].mean(), Y0[used].mean(), Z0[used].mean()
+    X, Y, Z = X0 - cx, Y0 - cy, Z0 - cz  # centring: invariant results, better rounding
     ff = face_frame(X, Y, Z, topo)
     dbl = ff.dbl
     inv = 1.0 / np.maximum(dbl, TINY)
@@ -168,9 +168,9 @@ def frame_metrics(
         step = np.zeros(n)
     else:
         Q = np.asarray(previous, np.float64)
-        dx = X + cx - Q[:, 0]
-        dy = Y + cy - Q[:, 1]
-        dz = Z + cz - Q[:, 2]
+        dx = X0 - Q[:, 0]
+        dy = Y0 - Q[:, 1]
+        dz = Z0 - Q[:, 2]
         if previous_length is None:
             pff = face_frame(*_components(Q), topo)
             q0, q1, q2 = np.sqrt(pff.l0), np.sqrt(pff.l1), np.sqrt(pff.l2)
