@@ -1,0 +1,154 @@
+"""Double curves, triple points and singular points of the classical surfaces."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+import numpy as np
+import pytest
+from turnabout import surfaces
+from turnabout.check import check_animation, self_intersections
+from turnabout.check.intersections import grid_candidate_pairs
+from turnabout.check.topology import MeshTopology
+
+
+def _turn(a: float, b: float) -> np.ndarray:
+    """A rotation about z by a, then about x by b."""
+    rz = np.array([[np.cos(a), -np.sin(a), 0], [np.sin(a), np.cos(a), 0], [0, 0, 1]])
+    rx = np.array([[1, 0, 0], [0, np.cos(b), -np.sin(b)], [0, np.sin(b), np.cos(b)]])
+    return rx @ rz
+
+
+@pytest.fixture(scope="module")
+def boy():
+    p, f = surfaces.boy_surface(40)
+    return p, f, check_animation(p, f)
+
+
+def test_boy_surface_has_one_triple_point(boy):
+    # Boy's surface (Bryant-Kusner parametrisation; Kusner, "Conformal geometry and complete
+    # minimal surfaces", Bull. AMS 1987): exactly one triple point, here at the origin where
+    # the three planar ends are inverted to
+    _, _, rep = boy
+    fr = rep.frames[0]
+    assert fr.triple_point_count == 1
+    assert np.linalg.norm(fr.triple_points[0]) < 0.02
+
+
+def test_boy_surface_has_one_closed_double_curve(boy):
+    _, _, rep = boy
+    fr = rep.frames[0]
+    assert fr.double_curve_count == 1 and fr.double_curves_closed == [True]
+    (curve,) = rep.double_curves(0)
+    assert np.allclose(curve[0], curve[-1])  # closed polyline
+    # the closed double curve passes three times through the triple point
+    d = np.linalg.norm(curve - rep.frames[0].triple_points[0], axis=1)
+    near = d < 0.05
+    runs = np.count_nonzero(near[1:] & ~near[:-1]) + int(near[0] and not near[-1])
+    assert runs == 3
+
+
+def test_boy_surface_has_no_singular_point_and_passes(boy):
+    _, _, rep = boy
+    fr = rep.frames[0]
+    assert fr.singular_point_count == 0 and fr.verdict != "fail"
+
+
+def test_boy_surface_satisfies_banchoff_parity(boy):
+    # Banchoff, "Triple points and surgery of immersed surfaces", Proc. AMS 1974:
+    # triple points = chi mod 2 for a generic immersion; chi(RP^2) = 1
+    _, _, rep = boy
+    assert rep.frames[0].triple_point_count % 2 == rep.topology.euler_characteristic % 2
+    assert not any("Banchoff" in r for r in rep.frames[0].reasons)
+
+
+def test_roman_surface_has_six_whitney_umbrellas_and_one_triple_point():
+    # Steiner's Roman surface: three double segments on the axes meet in one triple point
+    # at the origin and end in six pinch points at +-1/2 on the axes (classical)
+    p, f = surfaces.roman_surface(40)
+    fr = check_animation(p, f).frames[0]
+    assert fr.triple_point_count == 1
+    assert np.linalg.norm(fr.triple_points[0]) < 0.02
+    assert fr.singular_point_count == 6
+    where = np.array([s.position for s in fr.singular_points])
+    expected = 0.5 * np.vstack([np.eye(3), -np.eye(3)])
+    dist = np.linalg.norm(where[:, None] - expected[None], axis=-1)
+    assert np.all(dist.min(axis=0) < 0.08)  # every umbrella found near its place
+    assert fr.verdict == "fail"
+
+
+def test_cross_cap_has_two_singular_points():
+    # the cross-cap (x, y, z) -> (yz, 2xy, x^2 - y^2): one double segment on the z axis from
+    # (0, 0, 0) to (0, 0, 1) with a Whitney umbrella at each end (classical)
+    p, f = surfaces.cross_cap(40)
+    fr = check_animation(p, f).frames[0]
+    assert fr.singular_point_count == 2
+    ends = sorted(float(s.position[2]) for s in fr.singular_points)
+    assert ends[0] == pytest.approx(0.0, abs=0.08) and ends[1] == pytest.approx(1.0, abs=0.08)
+    assert fr.double_curve_count >= 1 and fr.triple_point_count == 0
+
+
+def test_round_sphere_and_torus_do_not_intersect_themselves():
+    for p, f in (surfaces.round_sphere(16), surfaces.torus(64, 32)):
+        res = self_intersections(p, MeshTopology(f, len(p)))
+        assert res.segments.shape[0] == 0 and res.triple_point_count == 0
+
+
+def test_two_overlapping_spheres_meet_in_one_circle():
+    # two unit spheres with centres 1 apart meet in a circle of radius sqrt(1 - 1/4) in the
+    # plane x = 1/2 (elementary geometry)
+    p, f = surfaces.round_sphere(20)
+    q = p @ _turn(0.4, 0.9).T + np.array([1.0, 0.0, 0.0])  # turned: no coincident vertices
+    pos = np.vstack([p, q])
+    faces = np.vstack([f, f + len(p)])
+    res = self_intersections(pos, MeshTopology(faces, len(pos)))
+    assert res.double_curve_count == 1 and res.curve_closed == [True]
+    assert res.triple_point_count == 0
+    (curve,) = res.polylines()
+    assert np.allclose(curve[:, 0], 0.5, atol=0.01)
+    radius = np.linalg.norm(curve[:, 1:], axis=1)
+    assert np.allclose(radius, np.sqrt(0.75), atol=0.01)
+
+
+def test_three_spheres_have_two_triple_points():
+    # three unit spheres centred on an equilateral triangle of side 1 share exactly two
+    # points (above and below the triangle's plane): two triple points (elementary geometry)
+    p, f = surfaces.round_sphere(20)
+    centres = np.array([[0, 0, 0], [1, 0, 0], [0.5, np.sqrt(3) / 2, 0]])
+    turns = [np.eye(3), _turn(0.4, 0.9), _turn(1.1, 0.3)]
+    pos = np.vstack([p @ t.T + c for t, c in zip(turns, centres, strict=True)])
+    faces = np.vstack([f + k * len(p) for k in range(3)])
+    res = self_intersections(pos, MeshTopology(faces, len(pos)))
+    assert res.triple_point_count == 2
+    assert np.all(res.triple_detections == 3)
+    height = np.sqrt(1 - 1 / 3)  # circumradius of the triangle is 1/sqrt(3)
+    z = np.sort(res.triple_points[:, 2])
+    assert z == pytest.approx([-height, height], abs=0.01)
+    assert res.double_curve_count == 3
+
+
+def test_grid_broad_phase_finds_every_overlapping_box_pair_once():
+    rng = np.random.default_rng(7)
+    lo = rng.random((300, 3))
+    hi = lo + rng.random((300, 3)) * 0.1
+    a, b = grid_candidate_pairs(lo, hi)
+    found = set(zip(a.tolist(), b.tolist(), strict=True))
+    assert len(found) == a.size  # no pair reported twice
+    ov = np.all((np.maximum(lo[:, None], lo[None]) <= np.minimum(hi[:, None], hi[None])), axis=-1)
+    i, j = np.nonzero(np.triu(ov, 1))
+    assert found == set(zip(i.tolist(), j.tolist(), strict=True))
+
+
+@pytest.mark.blender
+def test_intersecting_pairs_are_a_subset_of_blenders_bvh_overlap(tmp_path):
+    if "bpy" not in sys.modules:  # keep Blender away from the home folder
+        os.environ["BLENDER_USER_RESOURCES"] = str(tmp_path)
+    pytest.importorskip("bpy")
+    bvhtree = pytest.importorskip("mathutils.bvhtree")
+    p, f = surfaces.boy_surface(24)
+    res = self_intersections(p, MeshTopology(f, len(p)))
+    tree = bvhtree.BVHTree.FromPolygons(p.tolist(), f.tolist(), all_triangles=True)
+    theirs = {tuple(sorted(x)) for x in tree.overlap(tree)}
+    ours = {tuple(x) for x in np.sort(res.segment_faces, axis=1).tolist()}
+    assert ours and ours <= theirs
