@@ -74,14 +74,14 @@ def judge_frame(
         if spec.name == "step" and k == 0:
             continue
         vals = getattr(fm, spec.name)
-        sev = severity(spec, vals, th)
-        i = int(np.argmax(sev))
-        s = float(sev[i])
+        # severities are monotonic in the value: judge the extreme element only
+        i = int(np.argmin(vals)) if spec.worse == "lower" else int(np.argmax(vals))
+        value = float(vals[i])
+        s = float(severity(spec, np.array([value]), th)[0])
         if s > worst[0]:
             worst = (s, spec.element, i, spec.name)
         if spec.name != "step":
             worst_shape = max(worst_shape, s)
-        value = float(vals[i])
         where = f"{spec.element} {i}"
         if s >= 1.0:
             limit = getattr(th, spec.fail_attr)
@@ -89,13 +89,14 @@ def judge_frame(
         elif s >= warn_severity(spec, th):
             limit = getattr(th, spec.warn_attr)
             warns.append(f"{spec.label}: {_fmt(value)}{spec.unit} at {where} (warns at {limit})")
-    conc = (fm.crease_deg >= th.concentration_min_deg) & (
-        fm.crease_concentration >= th.concentration_warn
-    )
-    max_conc = float(np.max(np.where(fm.crease_deg >= th.concentration_min_deg,
-                                     fm.crease_concentration, 0.0)))  # fmt: skip
-    if conc.any():
-        i = int(np.argmax(np.where(conc, fm.crease_concentration, -np.inf)))
+    judged = fm.crease_deg >= th.concentration_min_deg
+    max_conc = 0.0
+    if judged.any():
+        cand = np.flatnonzero(judged)
+        j = int(np.argmax(fm.crease_concentration[cand]))
+        max_conc = float(fm.crease_concentration[cand[j]])
+    if max_conc >= th.concentration_warn:
+        i = int(cand[j])
         warns.append(
             f"crease concentrated on edge {i}: {_fmt(fm.crease_deg[i])}° there, "
             f"{_fmt(fm.crease_concentration[i])} times its neighbours' mean"

@@ -29,6 +29,8 @@ class ReferenceFrame:
 
     face_area: np.ndarray
     face_quality: np.ndarray
+    inverse_area: np.ndarray  # 1 / face_area (guarded against zero)
+    inverse_quality: np.ndarray
 
 
 def face_quality(ff: FaceFrame) -> np.ndarray:
@@ -44,7 +46,13 @@ def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:
     """ReferenceFrame of one frame P0 (V, 3)."""
     ff = face_frame(*_components(P0), topo)
-    return ReferenceFrame(face_area=0.5 * ff.dbl, face_quality=face_quality(ff))
+    area, quality = 0.5 * ff.dbl, face_quality(ff)
+    return ReferenceFrame(
+        face_area=area,
+        face_quality=quality,
+        inverse_area=1.0 / np.maximum(area, TINY),
+        inverse_quality=1.0 / np.maximum(quality, TINY),
+    )
 
 
 @dataclass
@@ -83,32 +91,42 @@ def frame_metrics(
     """
     n = topo.n_vertices
     used = topo.used_vertices
+    all_used = topo.all_vertices_used
     X0, Y0, Z0 = _components(P)
-    cx, cy, cz = X0[used].mean(), Y0[used].mean(), Z0[used].mean()
+    if all_used:
+        cx, cy, cz = X0.mean(), Y0.mean(), Z0.mean()
+    else:
+        cx, cy, cz = X0[used].mean(), Y0[used].mean(), Z0[used].mean()
     X, Y, Z = X0 - cx, Y0 - cy, Z0 - cz  # centring: invariant results, better rounding
     ff = face_frame(X, Y, Z, topo)
     dbl = ff.dbl
     inv = 1.0 / np.maximum(dbl, TINY)
     unx, uny, unz = ff.nx * inv, ff.ny * inv, ff.nz * inv
 
-    area_ratio = (0.5 * dbl) / np.maximum(ref.face_area, TINY)
-    quality_ratio = face_quality(ff) / np.maximum(ref.face_quality, TINY)
+    area_ratio = (0.5 * dbl) * ref.inverse_area
+    quality_ratio = face_quality(ff) * ref.inverse_quality
 
     # crease: angle between the unit normals of each edge's two faces; on a non-orientable
     # mesh an edge traversed the same way by both faces compares n with -n.
     fa, fb = topo.edge_face_columns
-    cosang = unx.take(fa) * unx.take(fb) + uny.take(fa) * uny.take(fb) + unz.take(fa) * unz.take(fb)
-    if not orientable or topo.edge_same_direction.any():
-        cosang = np.where(topo.edge_same_direction, -cosang, cosang)
-    crease = np.degrees(np.arccos(np.clip(cosang, -1.0, 1.0)))
+    cosang = unx.take(fa) * unx.take(fb)
+    cosang += uny.take(fa) * uny.take(fb)
+    cosang += unz.take(fa) * unz.take(fb)
+    if topo.has_flipped_edges:
+        cosang *= topo.edge_flip_sign
+    np.minimum(cosang, 1.0, out=cosang)
+    np.maximum(cosang, -1.0, out=cosang)
+    crease = np.arccos(cosang)
+    crease *= 180.0 / np.pi
     if not topo.is_edge_manifold:
         crease[~topo.manifold_edges] = 0.0
     wings = topo.edge_wings
     if topo.is_edge_manifold:
-        wing_mean = 0.25 * (
-            crease.take(wings[:, 0]) + crease.take(wings[:, 1])
-            + crease.take(wings[:, 2]) + crease.take(wings[:, 3])
-        )  # fmt: skip
+        wing_mean = crease.take(wings[:, 0])
+        wing_mean += crease.take(wings[:, 1])
+        wing_mean += crease.take(wings[:, 2])
+        wing_mean += crease.take(wings[:, 3])
+        wing_mean *= 0.25
     else:
         ok = wings >= 0
         vals = np.where(ok, crease[np.maximum(wings, 0)], 0.0)
@@ -117,53 +135,67 @@ def frame_metrics(
 
     # vertex normals (area weighted, fan-oriented) and fold agreement
     idx = topo.corner_index_slot_major
-    signs = topo.corner_fan_signs
-    flat_fans = bool(np.all(signs == 1.0))
+    f0, f1, f2 = topo.corner_columns
+    flat_fans = not topo.has_flipped_edges
     if flat_fans:
         wx = np.concatenate([ff.nx, ff.nx, ff.nx])
         wy = np.concatenate([ff.ny, ff.ny, ff.ny])
         wz = np.concatenate([ff.nz, ff.nz, ff.nz])
     else:
-        s = signs.T.ravel()
-        wx = s * np.concatenate([ff.nx, ff.nx, ff.nx])
-        wy = s * np.concatenate([ff.ny, ff.ny, ff.ny])
-        wz = s * np.concatenate([ff.nz, ff.nz, ff.nz])
+        sgn = topo.corner_fan_signs_slot_major
+        wx = sgn * np.concatenate([ff.nx, ff.nx, ff.nx])
+        wy = sgn * np.concatenate([ff.ny, ff.ny, ff.ny])
+        wz = sgn * np.concatenate([ff.nz, ff.nz, ff.nz])
     vx = np.bincount(idx, wx, minlength=n)
     vy = np.bincount(idx, wy, minlength=n)
     vz = np.bincount(idx, wz, minlength=n)
     vinv = 1.0 / np.maximum(np.sqrt(vx * vx + vy * vy + vz * vz), TINY)
-    vx, vy, vz = vx * vinv, vy * vinv, vz * vinv
-    cvx, cvy, cvz = vx.take(idx), vy.take(idx), vz.take(idx)  # (3M,) slot-major
-    unx3 = np.concatenate([unx, unx, unx])
-    uny3 = np.concatenate([uny, uny, uny])
-    unz3 = np.concatenate([unz, unz, unz])
-    corner_dot = cvx * unx3 + cvy * uny3 + cvz * unz3
+    vx *= vinv
+    vy *= vinv
+    vz *= vinv
+    corner_normals = []
+    dots = []
+    for fk in (f0, f1, f2):
+        ax, ay, az = vx.take(fk), vy.take(fk), vz.take(fk)
+        corner_normals.append((ax, ay, az))
+        d = ax * unx
+        d += ay * uny
+        d += az * unz
+        dots.append(d)
+    corner_dot = np.concatenate(dots)
     if not flat_fans:
-        corner_dot = corner_dot * signs.T.ravel()
-    fold = np.ones(n)
+        corner_dot *= topo.corner_fan_signs_slot_major
     starts = topo.vertex_corner_starts
-    if used.all():
+    if all_used:
         fold = np.minimum.reduceat(corner_dot.take(topo.slot_major_corner_order), starts[:-1])
-    elif used.any():
-        red = np.minimum.reduceat(corner_dot.take(topo.slot_major_corner_order), starts[:-1][used])
-        fold[used] = red
+    else:
+        fold = np.ones(n)
+        if used.any():
+            fold[used] = np.minimum.reduceat(
+                corner_dot.take(topo.slot_major_corner_order), starts[:-1][used]
+            )
 
     # tight bend: 1 / (largest absolute principal curvature), relative to the frame's size
     h, k = curvature_of_frame(ff, topo)
-    kmax = h + np.sqrt(np.maximum(h * h - k, 0.0))
-    if used.all():
+    disc = h * h
+    disc -= k
+    np.maximum(disc, 0.0, out=disc)
+    kmax = np.sqrt(disc)
+    kmax += h
+    if all_used:
         size = float(np.sqrt(np.ptp(X) ** 2 + np.ptp(Y) ** 2 + np.ptp(Z) ** 2))
     else:
         size = float(np.sqrt(np.ptp(X[used]) ** 2 + np.ptp(Y[used]) ** 2 + np.ptp(Z[used]) ** 2))
-    bend = 1.0 / (np.maximum(kmax, TINY) * max(size, TINY))
-    if not used.all():
+    np.maximum(kmax, TINY, out=kmax)
+    kmax *= max(size, TINY)
+    bend = np.reciprocal(kmax)
+    if not all_used:
         bend[~used] = np.inf
 
     # local edge length: mean over the corners' two edges (each edge counted from both faces)
     s0, s1, s2 = np.sqrt(ff.l0), np.sqrt(ff.l1), np.sqrt(ff.l2)
-    local_len = np.bincount(idx, np.concatenate([s0 + s2, s1 + s0, s2 + s1]), minlength=n) / (
-        2.0 * np.maximum(topo.vertex_degree, 1)
-    )
+    local_len = np.bincount(idx, np.concatenate([s0 + s2, s1 + s0, s2 + s1]), minlength=n)
+    local_len *= topo.inverse_twice_degree
     if previous is None:
         step = np.zeros(n)
     else:
@@ -176,22 +208,26 @@ def frame_metrics(
             q0, q1, q2 = np.sqrt(pff.l0), np.sqrt(pff.l1), np.sqrt(pff.l2)
             previous_length = np.bincount(
                 idx, np.concatenate([q0 + q2, q1 + q0, q2 + q1]), minlength=n
-            ) / (2.0 * np.maximum(topo.vertex_degree, 1))
-        step = np.sqrt(dx * dx + dy * dy + dz * dz) / np.maximum(
-            0.5 * (local_len + previous_length), TINY
-        )
-        if not used.all():
+            )
+            previous_length = previous_length * topo.inverse_twice_degree
+        dx *= dx
+        dy *= dy
+        dz *= dz
+        dx += dy
+        dx += dz
+        mean_len = local_len + previous_length
+        mean_len *= 0.5
+        np.maximum(mean_len, TINY, out=mean_len)
+        step = np.sqrt(dx)
+        step /= mean_len
+        if not all_used:
             step[~used] = 0.0
 
     if orientable:
         volume = float(np.dot(ff.x0, ff.nx) + np.dot(ff.y0, ff.ny) + np.dot(ff.z0, ff.nz)) / 6.0
         # degree: signed solid angles of the spherical triangles spanned by vertex normals
         # (Van Oosterom & Strackee, "The solid angle of a plane triangle", 1983)
-        f0, f1, f2 = topo.corner_columns
-        m = topo.n_faces
-        ax, ay, az = cvx[:m], cvy[:m], cvz[:m]
-        bx, by, bz = cvx[m : 2 * m], cvy[m : 2 * m], cvz[m : 2 * m]
-        qx, qy, qz = cvx[2 * m :], cvy[2 * m :], cvz[2 * m :]
+        (ax, ay, az), (bx, by, bz), (qx, qy, qz) = corner_normals
         triple = ax * (by * qz - bz * qy) + ay * (bz * qx - bx * qz) + az * (bx * qy - by * qx)
         den = 1.0 + (ax * bx + ay * by + az * bz) + (bx * qx + by * qy + bz * qz)
         den += qx * ax + qy * ay + qz * az

@@ -105,6 +105,31 @@ class MeshTopology:
     # --- derived adjacency -------------------------------------------------------------
 
     @cached_property
+    def all_vertices_used(self) -> bool:
+        return bool(np.all(self.vertex_degree > 0))
+
+    @cached_property
+    def has_flipped_edges(self) -> bool:
+        """Some edge is traversed the same way by both its faces (inconsistent orientation)."""
+        return bool(np.any(self.edge_same_direction))
+
+    @cached_property
+    def edge_flip_sign(self) -> np.ndarray:
+        """(E,) float64: -1 on edges traversed the same way by both faces, else 1."""
+        return np.where(self.edge_same_direction, -1.0, 1.0)
+
+    @cached_property
+    def corner_fan_signs_slot_major(self) -> np.ndarray:
+        """(3M,) float64: corner_fan_signs in slot-major corner order."""
+        return np.ascontiguousarray(self.corner_fan_signs.T).ravel()
+
+    @cached_property
+    def inverse_twice_degree(self) -> np.ndarray:
+        """(V,) float64: 1 / (2 x number of faces at each vertex), 0 for unused vertices."""
+        d = self.vertex_degree.astype(np.float64)
+        return np.where(d > 0, 0.5 / np.maximum(d, 1.0), 0.0)
+
+    @cached_property
     def corner_columns(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """The three face columns as contiguous (M,) intp arrays."""
         f = self.faces.astype(np.intp)

@@ -1,0 +1,124 @@
+"""Benchmark of the immersion checker (prints figures; asserts nothing).
+
+1. All local metrics (pinch, crease, fold, bend, jump, volume, degree, verdicts) for 240
+   frames of a 65,536-triangle sphere animation. Goal: 3 s or less. Baseline measured in the
+   same run: the bare face normals of the same frames (np.cross), a floor for any per-frame
+   check.
+2. Self-intersection analysis (double curves and triple points) of one 65,536-triangle frame
+   of Boy's surface, as a ratio to Blender's own BVHTree.overlap on the same mesh (needs the
+   bpy module for mathutils; skipped otherwise). Goal: 3x or less.
+
+Run: python benchmarks/bench_check.py [--frames 240] [--repeat 3]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import tempfile
+import time
+
+import numpy as np
+from turnabout import surfaces
+from turnabout.check import check_animation, self_intersections
+from turnabout.check.topology import MeshTopology
+from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+
+
+def best_of(fn, repeat: int) -> float:
+    best = np.inf
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t)
+    return best
+
+
+def wobbling_sphere(frames: int) -> tuple[np.ndarray, np.ndarray]:
+    mesh = uniform_sphere_mesh(256, 128)
+    p0 = round_sphere_positions(mesh)
+    th, la = mesh.vertex_params
+    t = np.linspace(0.0, 1.0, frames)[:, None]
+    bump = 1.0 + 0.08 * np.sin(3 * th)[None] * np.cos(la)[None] * np.sin(2 * np.pi * t)
+    positions = (p0[None] * bump[..., None]).astype(np.float32)
+    return positions, mesh.triangles()
+
+
+def bench_local(frames: int, repeat: int) -> None:
+    positions, faces = wobbling_sphere(frames)
+    print(f"local metrics: {frames} frames x {faces.shape[0]} triangles "
+          f"({positions.shape[1]} vertices)")  # fmt: skip
+
+    def normals_only():
+        for k in range(frames):
+            p = positions[k].astype(np.float64)
+            np.cross(p[faces[:, 1]] - p[faces[:, 0]], p[faces[:, 2]] - p[faces[:, 0]])
+
+    base = best_of(normals_only, repeat)
+    report = None
+
+    def full():
+        nonlocal report
+        report = check_animation(positions, faces, intersections=False)
+
+    t = best_of(full, repeat)
+    print(f"  baseline (face normals only): {base:.3f} s")
+    print(f"  check_animation, intersections off: {t:.3f} s  "
+          f"({1000 * t / frames:.1f} ms/frame, {t / base:.1f}x baseline, goal 3 s: "
+          f"{'met' if t <= 3.0 else 'NOT met'})")  # fmt: skip
+    print(f"  verdict {report.verdict}, failing frames {len(report.failing_frames())}")
+
+
+def bench_intersections(repeat: int) -> None:
+    p, f = surfaces.boy_surface(128)
+    topo = MeshTopology(f, len(p))
+    print(f"self-intersection: Boy's surface, {f.shape[0]} triangles")
+    res = None
+
+    def ours():
+        nonlocal res
+        res = self_intersections(p, topo)
+
+    self_intersections(p, topo)  # warm caches of the topology
+    t_ours = best_of(ours, repeat)
+    print(f"  numpy grid + exact events: {1000 * t_ours:.1f} ms "
+          f"({res.candidate_pairs} candidate pairs, {res.segments.shape[0]} segments, "
+          f"{res.double_curve_count} double curve(s), {res.triple_point_count} triple point(s))")
+    if "bpy" not in sys.modules:
+        os.environ.setdefault("BLENDER_USER_RESOURCES", tempfile.mkdtemp(prefix="bench-"))
+    try:
+        import bpy  # noqa: F401  (mathutils ships with the bpy module)
+        from mathutils.bvhtree import BVHTree
+    except ImportError:
+        print("  mathutils not importable: no Blender baseline")
+        return
+    verts, tris = p.tolist(), f.tolist()
+    tree = None
+
+    def build():
+        nonlocal tree
+        tree = BVHTree.FromPolygons(verts, tris, all_triangles=True)
+
+    t_build = best_of(build, repeat)
+    t_overlap = best_of(lambda: tree.overlap(tree), repeat)
+    print(f"  Blender BVHTree: build {1000 * t_build:.1f} ms, overlap {1000 * t_overlap:.1f} ms")
+    print(f"  ratio to BVHTree.overlap: {t_ours / t_overlap:.2f}x (goal <= 3x: "
+          f"{'met' if t_ours <= 3 * t_overlap else 'NOT met'}); "
+          f"to build + overlap: {t_ours / (t_build + t_overlap):.2f}x")  # fmt: skip
+    t_mu = best_of(lambda: self_intersections(p, topo, use_mathutils=True), repeat)
+    print(f"  with mathutils as broad phase: {1000 * t_mu:.1f} ms "
+          f"({t_mu / t_overlap:.2f}x overlap)")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--frames", type=int, default=240)
+    ap.add_argument("--repeat", type=int, default=3)
+    args = ap.parse_args()
+    bench_local(args.frames, args.repeat)
+    bench_intersections(args.repeat)
+
+
+if __name__ == "__main__":
+    main()
