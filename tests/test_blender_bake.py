@@ -125,7 +125,7 @@ def test_saved_file_animates_the_same_in_a_fresh_process_without_the_addon(tmp_p
 
 
 @pytest.mark.usefixtures("blank")
-def test_rebuild_updates_the_object_in_place_without_orphan_data():
+def test_rebuild_updates_the_object_in_place_without_orphan_data(tmp_path):
     s = bpy.context.scene.turnabout
     set_small_build(s, frames=10)
     assert bpy.ops.turnabout.add_eversion() == {"FINISHED"}
@@ -149,7 +149,7 @@ def test_rebuild_updates_the_object_in_place_without_orphan_data():
     )  # 0, 3, ..., 15 and the last, 16
     # and switching to a point cache and back leaves nothing behind either
     s.bake_mode = "POINT_CACHE"
-    s.cache_dir = os.path.join(bpy.app.tempdir or "/tmp", "ta-cache")
+    s.cache_dir = str(tmp_path / "cache")
     assert bpy.ops.turnabout.rebuild() == {"FINISHED"}
     s.bake_mode = "SHAPE_KEYS"
     assert bpy.ops.turnabout.rebuild() == {"FINISHED"}
