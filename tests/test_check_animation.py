@@ -187,3 +187,11 @@ def test_report_type_and_worst_frame(push_through):
     assert isinstance(rep, AnimationReport)
     assert rep.worst_frame in rep.failing_frames()
     assert abs(scale[rep.worst_frame]) <= 0.1
+
+
+def test_forked_workers_give_the_same_report(push_through):
+    _, positions, faces, rep = push_through
+    par = check_animation(positions, faces, workers=2)
+    assert par.failing_frames() == rep.failing_frames()
+    assert [f.reasons for f in par.frames] == [f.reasons for f in rep.frames]
+    assert np.allclose(par.metrics_table()["max_step"], rep.metrics_table()["max_step"])

@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+import multiprocessing as mp
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass
+
 import numpy as np
 
 from ..progress import ProgressFn, no_progress
 from .intersections import IntersectionResult, self_intersections
-from .metrics import FrameMetrics, frame_metrics, reference_frame
+from .metrics import FrameMetrics, ReferenceFrame, frame_metrics, reference_frame
 from .report import VERDICTS, AnimationReport, FrameReport
 from .roundness import eversion_check
 from .singular import failing_clusters, vertex_heat
@@ -167,6 +171,91 @@ def judge_frame(
     )
 
 
+@dataclass(frozen=True)
+class _FrameJob:
+    """Everything needed to judge a range of frames (shared with forked workers)."""
+
+    P: np.ndarray
+    topo: MeshTopology
+    ref: ReferenceFrame
+    th: Thresholds
+    chi: int
+    closed_manifold: bool
+    orientable: bool
+    intersections: bool
+    use_mathutils: bool
+    times: np.ndarray | None
+
+
+def _judge_range(job: _FrameJob, start: int, stop: int, progress: ProgressFn | None = None):
+    """FrameReports of frames start..stop-1 and their intersection results."""
+    reports: list[FrameReport] = []
+    inters: dict[int, IntersectionResult] = {}
+    prev = np.asarray(job.P[start - 1], np.float64) if start > 0 else None
+    prev_len = None
+    for k in range(start, stop):
+        Pk = np.asarray(job.P[k], np.float64)
+        fm = frame_metrics(Pk, job.topo, job.ref, previous=prev, previous_length=prev_len,
+                           orientable=job.orientable)  # fmt: skip
+        inter = None
+        if job.intersections:
+            inter = self_intersections(Pk, job.topo, use_mathutils=job.use_mathutils)
+            if inter.segments.shape[0]:
+                inters[k] = inter
+        t = float(job.times[k]) if job.times is not None else float("nan")
+        reports.append(judge_frame(k, Pk, fm, job.topo, job.th, job.chi, job.closed_manifold,
+                                   job.orientable, inter, t))  # fmt: skip
+        prev, prev_len = Pk, fm.local_length
+        if progress is not None:
+            progress(k + 1, job.P.shape[0])
+    return reports, inters
+
+
+# Set by the pool initializer inside forked worker processes only.
+_WORKER_JOB: list[_FrameJob] = []
+
+
+def _worker_init(job: _FrameJob) -> None:
+    _WORKER_JOB[:] = [job]
+
+
+def _worker_range(start: int, stop: int):
+    return _judge_range(_WORKER_JOB[0], start, stop)
+
+
+def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn):
+    n = job.P.shape[0]
+    if isinstance(workers, bool) or not isinstance(workers, int | np.integer) or workers < 1:
+        raise CheckInputError(f"workers must be an integer >= 1, got {workers!r}")
+    if workers == 1 or n < 4 or "fork" not in mp.get_all_start_methods():
+        return _judge_range(job, 0, n, progress)
+    chunk = max(2, -(-n // (4 * workers)))
+    bounds = [(s, min(s + chunk, n)) for s in range(0, n, chunk)]
+    results: dict[int, tuple] = {}
+    done = 0
+    with ProcessPoolExecutor(
+        max_workers=workers, mp_context=mp.get_context("fork"),
+        initializer=_worker_init, initargs=(job,),
+    ) as pool:  # fmt: skip
+        futures = {pool.submit(_worker_range, a, b): a for a, b in bounds}
+        try:
+            for fut in as_completed(futures):
+                start = futures[fut]
+                results[start] = fut.result()
+                done += len(results[start][0])
+                progress(done, n)
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
+    frames: list[FrameReport] = []
+    inters: dict[int, IntersectionResult] = {}
+    for start in sorted(results):
+        reps, its = results[start]
+        frames.extend(reps)
+        inters.update(its)
+    return frames, inters
+
+
 def check_animation(
     positions,
     faces,
@@ -175,6 +264,7 @@ def check_animation(
     progress: ProgressFn | None = None,
     intersections: bool = True,
     use_mathutils: bool = False,
+    workers: int = 1,
 ) -> AnimationReport:
     """Judge every frame of an animation of a fixed mesh.
 
@@ -182,7 +272,8 @@ def check_animation(
     polygons (triangulated as fans); times : optional (F,) float; progress(done, total) is
     called once per frame and may raise turnabout.progress.Cancelled; intersections=False
     skips double curves and triple points (the slow part); use_mathutils takes the
-    intersection broad phase from Blender's BVH when importable.
+    intersection broad phase from Blender's BVH when importable; workers > 1 judges chunks
+    of frames in that many forked processes (POSIX only; otherwise frames run in-process).
     """
     th = Thresholds() if thresholds is None else thresholds
     if not isinstance(th, Thresholds):
@@ -221,23 +312,9 @@ def check_animation(
     chi = treport.euler_characteristic
     closed_manifold = treport.is_manifold
     ref = reference_frame(P[0], topo)
-    frames: list[FrameReport] = []
-    inter_results: dict[int, IntersectionResult] = {}
-    prev = None
-    prev_len = None
-    for k in range(n_frames):
-        Pk = np.asarray(P[k], np.float64)
-        fm = frame_metrics(Pk, topo, ref, previous=prev, previous_length=prev_len,
-                           orientable=orientable)  # fmt: skip
-        inter = None
-        if intersections:
-            inter = self_intersections(Pk, topo, use_mathutils=use_mathutils)
-            if inter.segments.shape[0]:
-                inter_results[k] = inter
-        t = float(times[k]) if times is not None else float("nan")
-        frames.append(judge_frame(k, Pk, fm, topo, th, chi, closed_manifold, orientable, inter, t))
-        prev, prev_len = Pk, fm.local_length
-        progress(k + 1, n_frames)
+    job = _FrameJob(P, topo, ref, th, chi, closed_manifold, orientable, intersections,
+                    use_mathutils, times)  # fmt: skip
+    frames, inter_results = _run_frames(job, workers, progress)
     ev = None
     if treport.is_sphere and n_frames >= 2:
         ev = eversion_check(P[0], P[-1], topo.edges, frames[0].signed_volume,

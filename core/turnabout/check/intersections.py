@@ -106,12 +106,14 @@ def _expand_ranges(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def grid_candidate_pairs(
     lo: np.ndarray, hi: np.ndarray, cell_scale: float = 1.5
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float64 box corners.
+    """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float box corners.
 
-    A uniform grid with cells ``cell_scale`` times the mean box extent; each pair is
+    A uniform grid with cells ``cell_scale`` times the mean box extent. A pair is kept only
+    in the first cell (lowest index on every axis) that both boxes cover, so each pair is
     reported once. Returns two (K,) int64 arrays.
     """
-    m = lo.shape[0]
+    lo = np.asarray(lo, np.float64)
+    hi = np.asarray(hi, np.float64)
     ext = hi - lo
     h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
     origin = lo.min(axis=0)
@@ -128,30 +130,35 @@ def grid_candidate_pairs(
     key = (cx * dims[1] + cy) * dims[2] + cz
     order = np.argsort(key, kind="stable")
     key, tri = key[order], tri[order]
-    # group boundaries
     n = key.size
     new = np.ones(n, bool)
     new[1:] = key[1:] != key[:-1]
     gstart = np.flatnonzero(new)
     gsize = np.diff(np.append(gstart, n))
-    gend = np.repeat(gstart + gsize, gsize)
-    partners = gend - np.arange(n) - 1
+    partners = np.repeat(gstart + gsize, gsize) - np.arange(n) - 1
     first, off = _expand_ranges(partners)
     second = first + 1 + off
-    a, b = tri[first], tri[second]
-    cell = key[first]
-    # overlap test and "low corner of the overlap lies in this cell" de-duplication
-    olo = np.maximum(lo[a], lo[b])
-    ohi = np.minimum(hi[a], hi[b])
-    overlap = np.all(olo <= ohi, axis=1)
-    oc = np.floor((olo - origin) / h).astype(np.int64)
-    home = (oc[:, 0] * dims[1] + oc[:, 1]) * dims[2] + oc[:, 2]
-    keep = overlap & (home == cell)
-    a, b = a[keep], b[keep]
+    cell = key.take(first)
+    a, b = tri.take(first).astype(np.int32), tri.take(second).astype(np.int32)
+    del first, second, off
+    # box overlap, one axis at a time, compacting as we go (contiguous float32 columns;
+    # the boxes were widened by one float32 step so rounding cannot lose a touching pair)
+    lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
+    hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
+    for ax in range(3):
+        lo_ax = np.ascontiguousarray(lo32[:, ax])
+        hi_ax = np.ascontiguousarray(hi32[:, ax])
+        ok = lo_ax.take(a) <= hi_ax.take(b)
+        ok &= lo_ax.take(b) <= hi_ax.take(a)
+        a, b, cell = a[ok], b[ok], cell[ok]
+    # de-duplicate: keep a pair in the first cell both boxes cover (max of imin per axis)
+    ix, iy, iz = (np.ascontiguousarray(imin[:, j]) for j in range(3))
+    home = np.maximum(ix.take(a), ix.take(b)) * dims[1] + np.maximum(iy.take(a), iy.take(b))
+    home = home * dims[2] + np.maximum(iz.take(a), iz.take(b))
+    keep = home == cell
+    a, b = a[keep].astype(np.int64), b[keep].astype(np.int64)
     swap = a > b
-    a, b = np.where(swap, b, a), np.where(swap, a, b)
-    del m
-    return a.astype(np.int64), b.astype(np.int64)
+    return np.where(swap, b, a), np.where(swap, a, b)
 
 
 def _mathutils_pairs(P: np.ndarray, faces: np.ndarray):  # pragma: no cover - optional
@@ -259,19 +266,30 @@ def self_intersections(
     faces = topo.faces.astype(np.int64)
     m = faces.shape[0]
     fr = _Frame(P, faces)
-    tri = P[faces]  # (M, 3, 3)
-    lo, hi = tri.min(axis=1), tri.max(axis=1)
     pairs = _mathutils_pairs(P, faces) if use_mathutils else None
     broad = "mathutils" if pairs is not None else "grid"
     if pairs is None:
+        cols = topo.corner_columns
+        lo = np.empty((m, 3))
+        hi = np.empty((m, 3))
+        for ax in range(3):
+            c = np.ascontiguousarray(P[:, ax])
+            c0, c1, c2 = c.take(cols[0]), c.take(cols[1]), c.take(cols[2])
+            lo[:, ax] = np.minimum(np.minimum(c0, c1), c2)
+            hi[:, ax] = np.maximum(np.maximum(c0, c1), c2)
         pairs = grid_candidate_pairs(lo, hi, cell_scale)
     a, b = pairs
-    fa, fb = faces[a], faces[b]
-    share = np.zeros(a.size, bool)
+    # drop pairs sharing a vertex (an edge shares two): neighbours always touch
+    cols32 = topo.corner_columns_int32
+    fa = [c.take(a) for c in cols32]
+    fb = [c.take(b) for c in cols32]
+    share = fa[0] == fb[0]
     for i in range(3):
         for j in range(3):
-            share |= fa[:, i] == fb[:, j]
-    a, b = a[~share], b[~share]
+            if i or j:
+                share |= fa[i] == fb[j]
+    keep_pair = ~share
+    a, b = a[keep_pair], b[keep_pair]
     n_candidates = int(a.size)
 
     # plane straddling (the exact consequence of the event predicate): a pair can have an

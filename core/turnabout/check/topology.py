@@ -136,6 +136,11 @@ class MeshTopology:
         return tuple(np.ascontiguousarray(f[:, k]) for k in range(3))
 
     @cached_property
+    def corner_columns_int32(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The three face columns as contiguous (M,) int32 arrays."""
+        return tuple(np.ascontiguousarray(self.faces[:, k], dtype=np.int32) for k in range(3))
+
+    @cached_property
     def corner_index_slot_major(self) -> np.ndarray:
         """(3M,) intp: vertex of each corner, all corners 0 first, then 1, then 2."""
         return np.concatenate(self.corner_columns)

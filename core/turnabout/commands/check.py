@@ -63,6 +63,10 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     p.add_argument(
         "--weld", action="store_true", help="merge coincident vertices (seam duplicates) first"
     )
+    p.add_argument(
+        "--workers", type=int, default=1,
+        help="processes judging frames in parallel, >= 1 (default 1)",
+    )  # fmt: skip
     p.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
     g = p.add_argument_group("thresholds (see docs/checker.md for the reasoning)")
     for opt, attr, text in _THRESHOLD_OPTIONS:
@@ -104,6 +108,7 @@ def run(args: argparse.Namespace) -> int:
             times=seq.times,
             progress=bar,
             intersections=not args.no_intersections,
+            workers=args.workers,
         )
     except CheckInputError as exc:
         bar.close()
