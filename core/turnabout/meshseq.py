@@ -25,6 +25,7 @@ import zipfile
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -83,7 +84,7 @@ class MeshSequence:
 # --------------------------------------------------------------------------- helpers
 
 
-def triangulate_polygons(polygons: Sequence[Sequence[int]] | np.ndarray) -> np.ndarray:
+def triangulate_polygons(polygons: Sequence[Any] | np.ndarray) -> np.ndarray:
     """Split polygons into triangle fans around their first corner.
 
     polygons : (M, k) int array or a list of index sequences (k >= 3 each)
@@ -720,8 +721,8 @@ def _read_ply(path: Path, limits: ReadLimits) -> tuple[np.ndarray, list[np.ndarr
         if fmt == "ascii":
             if size - body_start > limits.max_total_bytes:
                 raise MeshSequenceError(f"{path}: too large")
-            body = fh.read().decode("ascii", errors="replace").split("\n")
-            return _read_ply_ascii(path, elements, body)
+            lines = fh.read().decode("ascii", errors="replace").split("\n")
+            return _read_ply_ascii(path, elements, lines)
         endian = "<" if fmt == "binary_little_endian" else ">"
         body = fh.read()
     return _read_ply_binary(path, elements, body, endian)
@@ -765,7 +766,8 @@ def _read_ply_ascii(path, elements, lines):
 
 def _read_ply_binary(path, elements, body: bytes, endian: str):
     off = 0
-    verts = faces = None
+    verts: Any = None
+    faces: Any = None
     for el in elements:
         if all(p[2] is None for p in el.props):
             dt = np.dtype([(p[0], endian + p[1]) for p in el.props])

@@ -88,56 +88,44 @@ def curvature_of_frame(ff: FaceFrame, topo: MeshTopology) -> tuple[np.ndarray, n
     meaningful (the angle defect there measures boundary turning).
     """
     n = topo.n_vertices
+    m = ff.dbl.shape[0]
     idx = topo.corner_index_slot_major
     inv = 1.0 / np.maximum(ff.dbl, TINY)
     c0, c1, c2 = ff.d0 * inv, ff.d1 * inv, ff.d2 * inv
-    # Laplacian contribution to corner k: cot_{k+1} e_{k+2} - cot_{k+2} e_k
-    lx = np.bincount(
-        idx,
-        np.concatenate(
-            [c1 * ff.e2x - c2 * ff.e0x, c2 * ff.e0x - c0 * ff.e1x, c0 * ff.e1x - c1 * ff.e2x]
-        ),
-        minlength=n,
-    )
-    ly = np.bincount(
-        idx,
-        np.concatenate(
-            [c1 * ff.e2y - c2 * ff.e0y, c2 * ff.e0y - c0 * ff.e1y, c0 * ff.e1y - c1 * ff.e2y]
-        ),
-        minlength=n,
-    )
-    lz = np.bincount(
-        idx,
-        np.concatenate(
-            [c1 * ff.e2z - c2 * ff.e0z, c2 * ff.e0z - c0 * ff.e1z, c0 * ff.e1z - c1 * ff.e2z]
-        ),
-        minlength=n,
-    )
-    # mixed Voronoi area: Voronoi part for non-obtuse faces, area/2 or area/4 otherwise
-    area = 0.5 * ff.dbl
-    ob0, ob1, ob2 = ff.d0 < 0, ff.d1 < 0, ff.d2 < 0
-    obtuse = ob0 | ob1 | ob2
-    half, quarter = 0.5 * area, 0.25 * area
-
-    def corner_area(ok, lk, lk2, ck2, ck1):
-        vor = 0.125 * (lk * ck2 + lk2 * ck1)
-        return np.where(obtuse, np.where(ok, half, quarter), vor)
-
-    amix = np.bincount(
-        idx,
-        np.concatenate(
-            [
-                corner_area(ob0, ff.l0, ff.l2, c2, c1),
-                corner_area(ob1, ff.l1, ff.l0, c0, c2),
-                corner_area(ob2, ff.l2, ff.l1, c1, c0),
-            ]
-        ),
-        minlength=n,
-    )
-    angles = np.concatenate(
-        [np.arctan2(ff.dbl, ff.d0), np.arctan2(ff.dbl, ff.d1), np.arctan2(ff.dbl, ff.d2)]
-    )
-    angle_sum = np.bincount(idx, angles, minlength=n)
+    # edge k (corner k -> k+1) has weight cot of the opposite corner: w0 = c2, w1 = c0,
+    # w2 = c1; with g_k = w_k e_k, corner k receives g_{k+2} - g_k
+    buf = np.empty(3 * m)
+    lap = []
+    for e0, e1, e2 in ((ff.e0x, ff.e1x, ff.e2x), (ff.e0y, ff.e1y, ff.e2y),
+                       (ff.e0z, ff.e1z, ff.e2z)):  # fmt: skip
+        g0, g1, g2 = c2 * e0, c0 * e1, c1 * e2
+        np.subtract(g2, g0, out=buf[:m])
+        np.subtract(g0, g1, out=buf[m : 2 * m])
+        np.subtract(g1, g2, out=buf[2 * m :])
+        lap.append(np.bincount(idx, buf, minlength=n))
+    lx, ly, lz = lap
+    # mixed Voronoi area: the Voronoi part for non-obtuse faces (corner k: edges k and k+2,
+    # weighted by the cotangents opposite them), area/2 or area/4 in obtuse faces
+    np.multiply(ff.l0, c2, out=buf[:m])
+    buf[:m] += ff.l2 * c1
+    np.multiply(ff.l1, c0, out=buf[m : 2 * m])
+    buf[m : 2 * m] += ff.l0 * c2
+    np.multiply(ff.l2, c1, out=buf[2 * m :])
+    buf[2 * m :] += ff.l1 * c0
+    buf *= 0.125
+    ob = np.concatenate([ff.d0 < 0, ff.d1 < 0, ff.d2 < 0])
+    obtuse_face = ob[:m] | ob[m : 2 * m] | ob[2 * m :]
+    if obtuse_face.any():
+        f_ob = np.flatnonzero(obtuse_face)
+        quarter = 0.125 * ff.dbl[f_ob]  # area / 4
+        for k in range(3):
+            slot = k * m + f_ob
+            buf[slot] = np.where(ob[slot], 2.0 * quarter, quarter)
+    amix = np.bincount(idx, buf, minlength=n)
+    np.arctan2(ff.dbl, ff.d0, out=buf[:m])
+    np.arctan2(ff.dbl, ff.d1, out=buf[m : 2 * m])
+    np.arctan2(ff.dbl, ff.d2, out=buf[2 * m :])
+    angle_sum = np.bincount(idx, buf, minlength=n)
     a_safe = np.maximum(amix, TINY)
     mean_abs = np.sqrt(lx * lx + ly * ly + lz * lz) / (4.0 * a_safe)
     gauss = (2 * np.pi - angle_sum) / a_safe

@@ -67,7 +67,7 @@ class IntersectionResult:
 
     def polylines(self) -> list[np.ndarray]:
         """Each double curve as a (k, 3) float64 polyline (closed curves repeat the start)."""
-        out = []
+        out: list[np.ndarray] = []
         for seg_ids, closed in zip(self.curves, self.curve_closed, strict=True):
             pts = _chain_points(self.segments, seg_ids)
             if closed:
@@ -375,7 +375,7 @@ def _chain(seg_keys: np.ndarray) -> tuple[list[np.ndarray], list[bool]]:
 
     def walk(prev: int, cur: int) -> list[int]:
         """Segments after ``cur``, walking away from ``prev``."""
-        out = []
+        out: list[int] = []
         while True:
             n0, n1 = nb[cur]
             nxt = n1 if n0 == prev else n0

@@ -40,7 +40,8 @@ def face_quality(ff: FaceFrame) -> np.ndarray:
 
 def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     P = np.asarray(P, np.float64)
-    return tuple(np.ascontiguousarray(P[:, j]) for j in range(3))
+    c = np.ascontiguousarray
+    return c(P[:, 0]), c(P[:, 1]), c(P[:, 2])
 
 
 def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:

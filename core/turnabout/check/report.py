@@ -139,7 +139,7 @@ class AnimationReport:
     reasons: list[str]
     intersections_checked: bool
     # kept to recompute per-element data on demand (heat maps, curves)
-    _positions: np.ndarray = field(repr=False, default=None)
+    _positions: np.ndarray | None = field(repr=False, default=None)
     _topo: MeshTopology | None = field(repr=False, default=None)
     _intersections: dict[int, IntersectionResult] = field(repr=False, default_factory=dict)
     _orientable: bool = field(repr=False, default=True)
@@ -176,11 +176,13 @@ class AnimationReport:
 
         if not 0 <= frame < len(self.frames):
             raise IndexError(f"frame {frame} out of range 0..{len(self.frames) - 1}")
-        P = self._positions
-        ref = reference_frame(P[0], self._topo)
+        P, topo = self._positions, self._topo
+        if P is None or topo is None:
+            raise RuntimeError("this report keeps no positions to recompute heat from")
+        ref = reference_frame(P[0], topo)
         prev = P[frame - 1] if frame > 0 else None
-        fm = frame_metrics(P[frame], self._topo, ref, previous=prev, orientable=self._orientable)
-        return vertex_heat(fm, self._topo, self.thresholds)
+        fm = frame_metrics(P[frame], topo, ref, previous=prev, orientable=self._orientable)
+        return vertex_heat(fm, topo, self.thresholds)
 
     def double_curves(self, frame: int) -> list[np.ndarray]:
         """Double curves of a frame as (k, 3) float64 polylines (needs intersections=True)."""

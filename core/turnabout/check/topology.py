@@ -133,12 +133,15 @@ class MeshTopology:
     def corner_columns(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """The three face columns as contiguous (M,) intp arrays."""
         f = self.faces.astype(np.intp)
-        return tuple(np.ascontiguousarray(f[:, k]) for k in range(3))
+        c = np.ascontiguousarray
+        return c(f[:, 0]), c(f[:, 1]), c(f[:, 2])
 
     @cached_property
     def corner_columns_int32(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """The three face columns as contiguous (M,) int32 arrays."""
-        return tuple(np.ascontiguousarray(self.faces[:, k], dtype=np.int32) for k in range(3))
+        f = self.faces
+        c = np.ascontiguousarray
+        return c(f[:, 0], np.int32), c(f[:, 1], np.int32), c(f[:, 2], np.int32)
 
     @cached_property
     def corner_index_slot_major(self) -> np.ndarray:
@@ -238,6 +241,7 @@ class MeshTopology:
         and continues across edge (v, a).
         """
         w = self._corner_walk
+        assert w is not None, "the link walk needs every edge in two faces"
         m = self.n_faces
         c = np.arange(3 * m)
         a, b = w["a"], w["b"]
