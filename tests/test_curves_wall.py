@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from curve_shapes import circle, limacon
+from curve_shapes import circle, limacon, wobbly_circle
 from turnabout.curves import marks_per_frame, regular_homotopy
 from turnabout.curves.wall import mark_beads, wall_faces, wall_height_for, wall_positions
 
@@ -77,10 +77,7 @@ def test_wall_height_is_a_fraction_of_the_largest_extent():
 
 def test_beads_follow_marks_and_have_no_area_while_their_mark_is_absent():
     # a round circle (2 marks for direction 0) to a five-wave wobbly curve with inflections
-    t = 2 * np.pi * (np.arange(400) + 1 / 3) / 400
-    wobbly = np.stack(
-        [(1 + 0.3 * np.cos(5 * t)) * np.cos(t), (1 + 0.3 * np.cos(5 * t)) * np.sin(t)], 1
-    )
+    wobbly = wobbly_circle(400, amp=0.3, waves=5)
     h = regular_homotopy(circle(400), wobbly, frames=25, samples=256)
     marks = marks_per_frame(h.points)
     beads = mark_beads(marks, radius=0.02, z=0.1)
