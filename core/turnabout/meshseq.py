@@ -187,7 +187,7 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     return seq
 
 
-def _atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
+def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder, then rename."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -260,7 +260,7 @@ def write_npz(
             info.compress_type = method
             info.external_attr = 0o644 << 16
             zf.writestr(info, _npy_bytes(members[name]))
-    _atomic_write_bytes(path, buf.getvalue())
+    atomic_write_bytes(path, buf.getvalue())
     return path
 
 
@@ -421,7 +421,7 @@ def write_obj_sequence(folder, positions, faces, uv=None, *, prefix: str = "fram
     for k, path in enumerate(paths):
         header = f"# frame {k} of {pos.shape[0]}\n".encode("ascii")
         vblock = _fmt_rows("v %.9g %.9g %.9g", pos[k].astype(np.float64))
-        _atomic_write_bytes(path, [header, vblock, uv_block, face_block])
+        atomic_write_bytes(path, [header, vblock, uv_block, face_block])
     return paths
 
 
@@ -636,7 +636,7 @@ def write_ply_sequence(
             vblock = np.ascontiguousarray(pos[k], "<f4").tobytes()
         else:
             vblock = _fmt_rows("%.9g %.9g %.9g", pos[k].astype(np.float64))
-        _atomic_write_bytes(path, [header, vblock, face_block])
+        atomic_write_bytes(path, [header, vblock, face_block])
     return paths
 
 

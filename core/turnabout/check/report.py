@@ -213,14 +213,14 @@ class AnimationReport:
         )
 
     def write_json(self, path) -> Path:
-        from ..meshseq import _atomic_write_bytes
+        from ..meshseq import atomic_write_bytes
 
         text = json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
-        _atomic_write_bytes(Path(path), text.encode("utf-8"))
+        atomic_write_bytes(Path(path), text.encode("utf-8"))
         return Path(path)
 
     def write_csv(self, path) -> Path:
-        from ..meshseq import _atomic_write_bytes
+        from ..meshseq import atomic_write_bytes
 
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
@@ -231,7 +231,7 @@ class AnimationReport:
                 v = _clean(getattr(f, col))
                 row.append("" if v is None else (f"{v:.9g}" if isinstance(v, float) else v))
             w.writerow([*row, f.verdict, "; ".join(f.reasons)])
-        _atomic_write_bytes(Path(path), buf.getvalue().encode("utf-8"))
+        atomic_write_bytes(Path(path), buf.getvalue().encode("utf-8"))
         return Path(path)
 
     def write_plot(self, path) -> Path:
@@ -245,7 +245,7 @@ class AnimationReport:
             raise RuntimeError(
                 "plots need matplotlib: install the 'plot' extra (pip install turnabout[plot])"
             ) from exc
-        from ..meshseq import _atomic_write_bytes
+        from ..meshseq import atomic_write_bytes
 
         t = self.metrics_table()
         th = self.thresholds
@@ -290,5 +290,5 @@ class AnimationReport:
         buf = io.BytesIO()
         fig.savefig(buf, format="png", dpi=110)
         plt.close(fig)
-        _atomic_write_bytes(Path(path), buf.getvalue())
+        atomic_write_bytes(Path(path), buf.getvalue())
         return Path(path)

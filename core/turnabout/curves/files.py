@@ -7,8 +7,7 @@ in the same folder that is renamed into place, so a failed run leaves no partial
 
 from __future__ import annotations
 
-import os
-import tempfile
+import io
 import zipfile
 from pathlib import Path
 
@@ -106,16 +105,8 @@ def read_curve(path, *, select: int | str | None = None, samples: int = 1024) ->
 
 def write_npz_atomic(path, arrays: dict) -> None:
     """Write arrays to an .npz file through a temporary file renamed into place."""
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=".part", dir=folder)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            np.savez(fh, **arrays)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    from ..meshseq import atomic_write_bytes
+
+    buf = io.BytesIO()
+    np.savez(buf, **arrays)
+    atomic_write_bytes(Path(path), buf.getvalue())
