@@ -324,15 +324,25 @@ def test_beads_can_be_left_out():
 
 
 @pytest.mark.usefixtures("blank")
-def test_checker_runs_on_the_wall_and_reports_an_open_band(tmp_path):
-    wall, *_ = _morph(frames=8, frame_start=1, samples=96, marks=False)
+def test_checker_runs_on_the_wall_reports_an_open_band_and_finds_where_it_meets_itself(tmp_path):
+    # two limacons with inner loops (turning number 2): a closed curve without self-crossings
+    # turns exactly once (Hopf, "Ueber die Drehung der Tangenten und Sehnen ebener Kurven",
+    # 1935), so every frame crosses itself and its wall meets itself along a vertical segment
+    a = poly_object("loop a", limacon_xyz(b=0.5))
+    b = poly_object("loop b", limacon_xyz(b=0.3) * [1.5, 1.0, 1.0])
+    s = bpy.context.scene.turnabout_curves
+    s.frames, s.frame_start, s.samples, s.show_marks = 6, 1, 96, False
+    select(a, b)
+    assert bpy.ops.turnabout.curve_homotopy() == {"FINISHED"}
     assert bpy.ops.turnabout.check(report_dir=str(tmp_path)) == {"FINISHED"}
-    s = bpy.context.scene.turnabout
-    assert len(s.results) == 8 and s.last_verdict
+    settings = bpy.context.scene.turnabout
+    assert len(settings.results) == 6 and settings.last_verdict
     report = json.loads(next(tmp_path.glob("*_check.json")).read_text())
-    text = json.dumps(report)
-    assert '"closed": false' in text
-    assert "boundary edges" in text
+    topo = report["topology"]
+    assert topo["closed"] is False and topo["boundary_edges"] == 2 * 96
+    assert topo["euler_characteristic"] == 0  # an annulus (handbook: chi = 2 - 2g - b)
+    assert any("boundary edges" in r for r in report["reasons"])
+    assert all(f["double_curve_count"] >= 1 for f in report["frames"])
 
 
 def test_unregister_removes_the_curves_settings_and_classes():
