@@ -155,7 +155,8 @@ def _flat_material(name: str, colour):
     mat = bpy.data.materials.new(name)
     if getattr(mat, "node_tree", None) is None:  # Blender 4.2 starts without nodes
         mat.use_nodes = True
-    bsdf = mat.node_tree.nodes.get("Principled BSDF")
+    tree = mat.node_tree
+    bsdf = tree.nodes.get("Principled BSDF") if tree is not None else None
     if bsdf is not None:
         bsdf.inputs["Base Color"].default_value = tuple(colour)
     mat.diffuse_color = tuple(colour)
