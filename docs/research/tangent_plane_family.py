@@ -106,7 +106,6 @@ if __name__ == "__main__":
     theta = np.linspace(0, 2 * np.pi / N_STRIPS, 48, endpoint=False)
     lat = np.linspace(-1.5, 1.5, 151)
     for s in np.linspace(0.0, 0.6, 13):
-        print(
-            f"s={s:.2f}  kappa={np.interp(s, SS, KS):+.2f}  min ratio {ratio(theta, lat, s).min():.3f}"
-        )
+        k, r = np.interp(s, SS, KS), ratio(theta, lat, s).min()
+        print(f"s={s:.2f}  kappa={k:+.2f}  min ratio {r:.3f}")
     print(f"kappa at s=1: {KS[-1]:+.2f} (must be 0 for the family to end on the everted sphere)")
