@@ -11,7 +11,6 @@ import time
 import tracemalloc
 
 import numpy as np
-
 from turnabout.eversion import Controls, build
 from turnabout.mesh import uniform_sphere_mesh
 
@@ -48,7 +47,8 @@ def main() -> None:
     print(f"grid 256 x 128, {FRAMES} frames, {mesh.n_vertices} vertices")
     print(f"round sphere baseline: {t_base:.3f} s")
     print(f"eversion bake:         {t_ev:.3f} s  ({t_ev / t_base:.1f}x baseline; goal 0.5 s)")
-    print(f"peak memory / output:  {peak / out_bytes:.2f}x  (output {out_bytes / 2**20:.1f} MiB; goal 1.5x)")
+    mib = out_bytes / 2**20
+    print(f"peak memory / output:  {peak / out_bytes:.2f}x  (output {mib:.1f} MiB; goal 1.5x)")
     assert base.shape == ev.positions.shape
 
 
