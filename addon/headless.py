@@ -39,6 +39,8 @@ def ensure_registered() -> None:
 def empty_file() -> None:
     bpy.ops.wm.read_homefile(use_empty=True, use_factory_startup=True)
     ensure_registered()
+    # rendered frames land beside the .blend rather than in a system folder
+    bpy.context.scene.render.filepath = "//render/"
 
 
 def look_settings(outer=OUTER_COLOUR, inner=INNER_COLOUR, strips=False, tint=GUIDE_TINT):
