@@ -529,23 +529,29 @@ def _numbered_files(folder: Path, ext: str) -> list[Path]:
     return [p for _, _, p in numbered]
 
 
-def read_obj_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
-    """Read a folder of numbered OBJ files (or a list of OBJ paths) as one mesh sequence.
-
-    Every file must have the same vertex count and the same faces (a clear error otherwise).
-    """
+def _sequence_files(paths, ext: str, limits: ReadLimits) -> list[Path]:
+    """The frame files named by ``paths``: a folder of numbered files, one file, or a list."""
     if isinstance(paths, str | os.PathLike) and Path(paths).is_dir():
-        files = _numbered_files(Path(paths), "obj")
+        files = _numbered_files(Path(paths), ext)
         if not files:
-            raise MeshSequenceError(f"{paths}: no .obj files in this folder")
+            raise MeshSequenceError(f"{paths}: no .{ext} files in this folder")
     elif isinstance(paths, str | os.PathLike):
         files = [Path(paths)]
     else:
         files = [Path(p) for p in paths]
     if len(files) > limits.max_frames:
         raise MeshSequenceError(
-            f"{len(files)} OBJ files exceed the limit of {limits.max_frames} frames"
+            f"{len(files)} {ext.upper()} files exceed the limit of {limits.max_frames} frames"
         )
+    return files
+
+
+def read_obj_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
+    """Read a folder of numbered OBJ files (or a list of OBJ paths) as one mesh sequence.
+
+    Every file must have the same vertex count and the same faces (a clear error otherwise).
+    """
+    files = _sequence_files(paths, "obj", limits)
     verts0, flines0, uv0 = _parse_obj(files[0], limits)
     n = verts0.shape[0]
     if len(files) * n * 12 > limits.max_total_bytes:
@@ -829,18 +835,7 @@ def _faces_equal(a, b) -> bool:
 
 def read_ply_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
     """Read a folder of numbered PLY files (or a list of paths; ASCII or binary)."""
-    if isinstance(paths, str | os.PathLike) and Path(paths).is_dir():
-        files = _numbered_files(Path(paths), "ply")
-        if not files:
-            raise MeshSequenceError(f"{paths}: no .ply files in this folder")
-    elif isinstance(paths, str | os.PathLike):
-        files = [Path(paths)]
-    else:
-        files = [Path(p) for p in paths]
-    if len(files) > limits.max_frames:
-        raise MeshSequenceError(
-            f"{len(files)} PLY files exceed the limit of {limits.max_frames} frames"
-        )
+    files = _sequence_files(paths, "ply", limits)
     verts0, faces0 = _read_ply(files[0], limits)
     n = verts0.shape[0]
     if len(files) * n * 12 > limits.max_total_bytes:
