@@ -287,16 +287,22 @@ def _npy_header(zf: zipfile.ZipFile, info: zipfile.ZipInfo, source: str):
     return tuple(int(s) for s in shape), dtype
 
 
+def _file_size(path: Path) -> int:
+    """Size of a file we are about to read; refuses missing, unreadable and empty files."""
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        raise MeshSequenceError(f"{path}: cannot read ({exc.strerror})") from None
+    if size == 0:
+        raise MeshSequenceError(f"{path}: the file is empty")
+    return size
+
+
 def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
     """Read our .npz (see :func:`write_npz`), checking every member before loading it."""
     path = Path(path)
     source = str(path)
-    try:
-        size = path.stat().st_size
-    except OSError as exc:
-        raise MeshSequenceError(f"{source}: cannot read ({exc.strerror})") from None
-    if size == 0:
-        raise MeshSequenceError(f"{source}: the file is empty")
+    _file_size(path)
     try:
         zf = zipfile.ZipFile(path)
     except (zipfile.BadZipFile, OSError) as exc:
@@ -426,12 +432,7 @@ def write_obj_sequence(folder, positions, faces, uv=None, *, prefix: str = "fram
 
 
 def _read_text(path: Path, limit_bytes: int) -> str:
-    try:
-        size = path.stat().st_size
-    except OSError as exc:
-        raise MeshSequenceError(f"{path}: cannot read ({exc.strerror})") from None
-    if size == 0:
-        raise MeshSequenceError(f"{path}: the file is empty")
+    size = _file_size(path)
     if size > limit_bytes:
         raise MeshSequenceError(f"{path}: {size} bytes is over the limit of {limit_bytes}")
     data = path.read_bytes()
@@ -715,12 +716,7 @@ def _parse_ply_header(fh, path: Path, limits: ReadLimits):
 
 def _read_ply(path: Path, limits: ReadLimits) -> tuple[np.ndarray, list[np.ndarray] | np.ndarray]:
     """(vertices (V, 3) float64, faces as (M, k) array or list of polygons) of one PLY file."""
-    try:
-        size = path.stat().st_size
-    except OSError as exc:
-        raise MeshSequenceError(f"{path}: cannot read ({exc.strerror})") from None
-    if size == 0:
-        raise MeshSequenceError(f"{path}: the file is empty")
+    size = _file_size(path)
     with open(path, "rb") as fh:
         fmt, elements = _parse_ply_header(fh, path, limits)
         body_start = fh.tell()
