@@ -141,47 +141,11 @@ def test_cli_refuses_bad_input_without_writing_a_file(tmp_path, capsys, extra):
     assert "turnabout build:" in capsys.readouterr().err
 
 
-def test_obj_and_ply_outputs(tmp_path):
-    assert (
-        main(
-            [
-                "build",
-                "--quiet",
-                "--frames",
-                "2",
-                "--lon",
-                "64",
-                "--lat",
-                "17",
-                "--format",
-                "obj",
-                "--out",
-                str(tmp_path / "obj"),
-            ]
-        )
-        == 0
-    )
-    assert (
-        main(
-            [
-                "build",
-                "--quiet",
-                "--frames",
-                "2",
-                "--lon",
-                "64",
-                "--lat",
-                "17",
-                "--format",
-                "ply",
-                "--out",
-                str(tmp_path / "ply"),
-            ]
-        )
-        == 0
-    )
-    assert len(list((tmp_path / "obj").glob("*.obj"))) == 2
-    assert len(list((tmp_path / "ply").glob("*.ply"))) == 2
+@pytest.mark.parametrize("fmt", ["obj", "ply"])
+def test_frame_folder_outputs(tmp_path, fmt):
+    args = ["build", "--quiet", "--frames", "2", "--lon", "64", "--lat", "17"]
+    assert main([*args, "--format", fmt, "--out", str(tmp_path / fmt)]) == 0
+    assert len(list((tmp_path / fmt).glob(f"*.{fmt}"))) == 2
 
 
 def test_scan_reports_the_round_sphere_ratio_as_one_at_time_zero():
