@@ -153,3 +153,34 @@ def test_scan_reports_the_round_sphere_ratio_as_one_at_time_zero():
     assert np.isclose(rep.ratio_per_time[0], 1.0, atol=1e-6)
     assert np.isclose(rep.curvature_per_time[0], 1.0, atol=1e-3)  # unit sphere: k = 1/R
     assert rep.pole_min_ratio > 0.99
+
+
+def test_guide_closes_on_the_axis_at_the_first_zero_of_j0():
+    # The guide's ends lie on the axis iff J0(X) = 0; X is the first zero of J0
+    # (Abramowitz and Stegun, Handbook of Mathematical Functions, 1964, table 9.5),
+    # checked against scipy's Bessel zeros.
+    special = pytest.importorskip("scipy.special")
+    assert np.isclose(C.J0_FIRST_ZERO, special.jn_zeros(0, 1)[0], rtol=0, atol=1e-15)
+    assert np.allclose(C._J[:12], special.jv(np.arange(12), C.J0_FIRST_ZERO), atol=1e-15)
+    for turn in np.linspace(0.0, 1.0, 11):
+        g, _ = C.guide_and_tangent(np.array([-np.pi / 2, np.pi / 2]), C.StageState(turn, 1.0))
+        assert np.abs(g[:, :2]).max() < 1e-15
+
+
+def test_guide_offset_curve_integrates_its_tangent():
+    # G' = cos(chi) e_y + sin(chi) n0 (complex step against the closed-form integrand)
+    lat = np.linspace(-1.5, 1.5, 31)
+    h = 1e-30
+    dG = C.guide_offset_curve(lat + 1j * h).imag / h
+    ch = C.chi(lat)
+    n0 = np.stack([np.cos(lat), 0 * lat, np.sin(lat)], -1)
+    e = np.cos(ch)[:, None] * np.array([0.0, 1.0, 0.0]) + np.sin(ch)[:, None] * n0
+    assert np.abs(dG - e).max() < 1e-13
+
+
+@pytest.mark.parametrize("strips", range(8, 17))
+def test_coarse_scan_is_regular_for_every_documented_strip_count(strips):
+    # coarse version of the full check in the README (720 x 361 x 400)
+    rep = scan(Controls(strips=strips), n_theta=12 * strips, n_lat=61, n_times=60, curvature=False)
+    assert rep.min_ratio >= 0.05
+    assert rep.pole_min_ratio > 0.99

@@ -1,4 +1,4 @@
-"""Topological diagnostics of the guide motion (docs/eversion.md, "Why the tuck fails").
+"""Topological diagnostics of the guide motion (docs/eversion.md).
 
 Checks two independent computations against each other and against degree theory:
 the tangent sweep class is an integer that retiming the stages cannot change (the degree
@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 from turnabout.eversion import Controls
+from turnabout.eversion.construction import P_CENTRE, turn_at
 from turnabout.eversion.diagnostics import latitude_direction_zeros, tangent_sweep_class
 
 
@@ -32,11 +33,16 @@ def test_zero_indices_sum_to_twice_the_sweep_class():
     assert total == 2 * klass
 
 
-def test_the_current_guide_motion_is_in_the_wrong_class():
-    # Documented finding: the present construction has class 1, so its projected latitude
-    # direction has zeros of total index 2 and no wave axis can make it regular. This test
-    # fails (and must be updated with the docs) once the construction is repaired.
-    assert round(tangent_sweep_class(Controls(), n_lat=201, n_times=401)) == 1
-    zeros = latitude_direction_zeros(Controls())
-    assert all(0.55 < t < 0.8 for t, _, _ in zeros)
-    assert np.isclose(sorted(abs(lat) for _, lat, _ in zeros)[0], 0.28, atol=0.05)
+def test_the_guide_motion_is_in_the_class_of_the_formal_solution():
+    # The tangent turns along great circles from T0 to -T0 with the round sphere's end
+    # states, so the swept area is -int sin(psi) dlat at the end = 0 (docs/eversion.md):
+    # class 0, and the zeros of the projected latitude direction cancel in pairs.
+    ctl = Controls()
+    assert round(tangent_sweep_class(ctl, n_lat=201, n_times=401)) == 0
+    zeros = latitude_direction_zeros(ctl)
+    assert sum(z[2] for z in zeros) == 0
+    # one of them is the tuck itself: the equator passes through the axis at p = P_CENTRE
+    tuck = [
+        z for z in zeros if abs(z[1]) < 0.02 and abs(turn_at(ctl, z[0]) - P_CENTRE / np.pi) < 0.01
+    ]
+    assert len(tuck) == 1 and tuck[0][2] == -1

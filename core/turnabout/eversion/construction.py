@@ -2,29 +2,40 @@
 
 Notation (derivation in docs/eversion.md):
 
-    F(theta, lat, t) = R(theta) [ g(lat, t) + W(n theta, lat, t) ]
+    F(theta, lat, t) = R(theta) [ g(lat, p) + W(n theta, lat, t) ]
 
-``R(theta)`` is the rotation by theta about the vertical axis, ``g`` the *guide*: the
-meridian curve at theta = 0, and ``W`` the corrugation: a figure-eight cross-section
-in the guide's normal plane, of period 2 pi / n in theta, so every frame has exact
-n-fold symmetry about the axis.
+``R(theta)`` is the rotation by theta about the vertical axis e_z, ``g`` the *guide* (the
+meridian curve at theta = 0) and ``W`` the corrugation: a figure-eight cross-section in
+the guide's normal plane, of period 2 pi / n in theta, so every frame has exact n-fold
+symmetry about the axis.
 
-The guide, written with its horizontal part as (X, Y) and height Z:
+The guide depends on one angle p in [0, pi], the *turn*. Its unit tangent turns, at every
+latitude, along a great circle from the round meridian's tangent T0 to -T0:
 
-    X + iY = rad(lat, t) * [ (1 - k) e^{i a(lat, t)} - k ]
-    Z      = p(t) sin(lat) + q(t) sin(lat) cos(lat)^M
+    T = cos(p) T0 + sin(p) E,        E = cos(chi) e_y + sin(chi) n0,   chi = -X sin(2 lat)
 
-* ``swap`` drives p from 1 to -1 (the caps change places along the axis) while q grows
-  and keeps dZ/dlat > 0 at the equator: the profile stays regular and forms the belt loop;
-  a bulge of the radius ``rad = cos(lat) (1 + e cos(lat)^K)`` keeps that loop round.
-* ``twist`` turns the caps by +pi (south) and -pi (north): the azimuth a(lat, t).
-* ``tuck`` blends the twisted guide towards the antipodal meridian (k from 0 to 1):
-  the equator passes through the centre at k = 1/2, at the same moment as the belt loop
-  closes (q = -p there), and q dies away.
-* ``ripple`` and ``calm`` switch the corrugation on and off.
+with n0 the round sphere's outward normal, and the guide is the integral of T along
+latitude, centred so that both ends lie on the axis:
 
-Every function of latitude here is complex-analytic, so derivatives in latitude are
-taken by complex step (exact to rounding), and derivatives in theta are analytic.
+    g(lat, p) = cos(p) g0(lat) + sin(p) (G(lat) - c e_x),     G' = E, G(0) = 0.
+
+The ends stay on the axis exactly because X is the first zero of the Bessel function J0:
+the y-part of G at the poles is (pi/2) J0(X). G has a closed form as a trigonometric
+series with Bessel coefficients (Jacobi-Anger expansion of cos(X sin 2 lat) and
+sin(X sin 2 lat)), so every function of latitude here is complex-analytic: F_lat is taken
+by complex step (exact to rounding) and F_theta analytically.
+
+* The caps turn by +p (south) and -p (north) about the axis: the odd relative turn that
+  the frame obstruction (pi_1(SO(3)) = Z/2) demands.
+* The caps pass each other along the axis at p = P_LEVEL, and the equator passes
+  through the centre at p = P_CENTRE (both from the closed form).
+* The wave axis is the start frame's e_y carried along the tangent's great circle,
+  pre-turned by 2 chi ease(p / pi) about T0 so that it ends as -e_y, the direction of the
+  latitude velocity on the everted sphere. It never vanishes.
+
+The stages ``swap``, ``twist`` and ``tuck`` drive the turn p through consecutive shares
+of [0, pi] (the caps pass each other inside ``swap``, the equator passes the centre
+inside ``tuck``); ``ripple`` and ``calm`` grow and remove the waves.
 """
 
 from __future__ import annotations
@@ -36,18 +47,18 @@ import numpy as np
 from ..mesh import SphereMesh, uniform_sphere_mesh
 from .controls import Controls
 
-# Shape constants of the construction (dimensionless; see docs/eversion.md).
-BELT_EXPONENT = 4  # M: how far the belt-forming term reaches from the equator
-BELT_HEIGHT = 2.5  # q at the end of the swap
-BULGE = 0.8  # e at the end of the swap: outward bulge that keeps the belt loop round
-BULGE_EXPONENT = 6  # K
-TWIST_EDGE = 1.35  # latitude (rad) beyond which the caps turn rigidly
-TWIST_EQUATOR_SHARE = 0.15  # share of the twist spread evenly over latitude
+# --- shape constants (dimensionless; see docs/eversion.md) -------------------------------
+# First zero of the Bessel function J0 (Abramowitz and Stegun, Handbook of Mathematical
+# Functions, 1964, table 9.5): makes the guide close on the axis.
+J0_FIRST_ZERO = 2.404825557695773
 WAVE_ASPECT = 1.0  # back-and-forth amplitude of the figure-eight, relative to depth / 2
-AXIS_LIFT = 0.2  # vertical bias of the wave axis while the guide is near the axis
-WAVE_FULL_LAT = 0.6  # |lat| (rad) below which the waves have full depth
-WAVE_END_LAT = 1.1  # |lat| (rad) beyond which there are no waves
+WAVE_FULL_LAT = 0.9  # |lat| (rad) below which the waves have full depth
+WAVE_END_LAT = 1.3  # |lat| (rad) beyond which there are no waves
+SERIES_TERMS = 14  # terms of each Bessel series (the next coefficient is below 1e-24)
 COMPLEX_STEP = 1e-30
+
+# Shares of the turn driven by each motion stage (they sum to 1).
+TURN_SHARES = {"swap": 0.4, "twist": 0.2, "tuck": 0.4}
 
 
 def ease(x):
@@ -69,102 +80,118 @@ def _step(x, a: float, b: float):
     return np.where(xr <= a, 0.0 * y, np.where(xr >= b, 0.0 * y + 1.0, poly))
 
 
-def _step_d(x, a: float, b: float):
-    """d/dx of :func:`_step`."""
-    y = (x - a) / (b - a)
-    poly = 30.0 * y * y * (y - 1.0) * (y - 1.0) / (b - a)
-    xr = np.real(x)
-    return np.where((xr <= a) | (xr >= b), 0.0 * y, poly)
-
-
 def _dot(a, b):
     return (a * b).sum(-1)
 
 
+# --- the guide's closed form ----------------------------------------------------------------
+
+
+def _bessel_j(x: float, count: int, samples: int = 256) -> np.ndarray:
+    """J_0(x) ... J_{count-1}(x) from exp(i x sin phi) = sum J_m(x) e^{i m phi} (by FFT)."""
+    phi = 2.0 * np.pi * np.arange(samples) / samples
+    return np.real(np.fft.fft(np.exp(1j * x * np.sin(phi))))[:count] / samples
+
+
+_J = _bessel_j(J0_FIRST_ZERO, 2 * SERIES_TERMS + 2)
+# cos(chi) = J0 + sum_k 2 J_2k cos(4k lat); J0 = 0 at the chosen X (exactly, by definition).
+_COS_M = 4.0 * np.arange(1, SERIES_TERMS + 1)
+_COS_A = 2.0 * _J[2 * np.arange(1, SERIES_TERMS + 1)]
+# sin(chi) = -sum_k 2 J_(2k+1) sin((4k+2) lat)
+_SIN_M = 4.0 * np.arange(SERIES_TERMS) + 2.0
+_SIN_B = -2.0 * _J[2 * np.arange(SERIES_TERMS) + 1]
+
+
+def chi(lat):
+    """Angle of the tangent's turning plane about T0, measured from e_y towards n0."""
+    return -J0_FIRST_ZERO * np.sin(2.0 * lat)
+
+
+def guide_offset_curve(lat):
+    """G(lat) - c e_x: the closed curve the guide passes through at p = pi / 2, (..., 3)."""
+    la = np.asarray(lat)[..., None]
+    m, a = _COS_M, _COS_A
+    mb, b = _SIN_M, _SIN_B
+    gy = (a * np.sin(m * la) / m).sum(-1)
+    gx = -(0.5 * b * (np.cos((mb + 1) * la) / (mb + 1) + np.cos((mb - 1) * la) / (mb - 1))).sum(-1)
+    gz = (0.5 * b * (np.sin((mb - 1) * la) / (mb - 1) - np.sin((mb + 1) * la) / (mb + 1))).sum(-1)
+    return np.stack([gx, gy, gz], -1)
+
+
+# Landmarks of the turn: the caps are level (south pole height 0) when tan p = 1 / G_z(S);
+# the equator is at the centre when cos p + sin p (G_x(0) - c) = 0.
+_G_SOUTH_Z = float(guide_offset_curve(np.array(-np.pi / 2))[2])
+_G_EQ_X = float(guide_offset_curve(np.array(0.0))[0])
+P_LEVEL = float(np.arctan2(1.0, _G_SOUTH_Z))
+P_CENTRE = float(np.arctan2(1.0, -_G_EQ_X))
+
+
 @dataclass(frozen=True)
 class StageState:
-    """Where each stage stands at one time t (all in [0, 1])."""
+    """Where the motion stands at one time t."""
 
-    swap: float
-    twist: float
-    tuck: float
-    bulge: float
-    lift: float
-    waves: float
+    turn: float  # p / pi in [0, 1]
+    waves: float  # wave amplitude in [0, 1]
+
+    @property
+    def angle(self) -> float:
+        return float(np.pi * self.turn)
+
+    def cos_sin(self) -> tuple[float, float]:
+        """(cos p, sin p), exact at both ends of the motion."""
+        if self.turn >= 1.0:
+            return -1.0, 0.0
+        if self.turn <= 0.0:
+            return 1.0, 0.0
+        p = self.angle
+        return float(np.cos(p)), float(np.sin(p))
+
+
+def turn_at(controls: Controls, t: float) -> float:
+    """The turn p / pi at time t: each motion stage drives its share, eased in its window."""
+    tm = controls.timing
+    return float(sum(share * window(t, tm[name]) for name, share in TURN_SHARES.items()))
 
 
 def stage_state(controls: Controls, t: float) -> StageState:
     tm = controls.timing
-    s0, s1 = tm["swap"]
-    w0, w1 = tm["twist"]
-    k0, k1 = tm["tuck"]
-    bulge_off = ((w0 + w1) / 2, k0 + 0.3 * (k1 - k0))
-    lift = window(t, (s1 - 0.05 * (s1 - s0) / 0.3, w1)) * (
-        1.0 - window(t, (k1 - 0.3 * (k1 - k0), k1))
-    )
-    return StageState(
-        swap=window(t, tm["swap"]),
-        twist=window(t, tm["twist"]),
-        tuck=window(t, tm["tuck"]),
-        bulge=window(t, tm["swap"]) * (1.0 - window(t, bulge_off)),
-        lift=lift,
-        waves=window(t, tm["ripple"]) * (1.0 - window(t, tm["calm"])),
-    )
+    waves = window(t, tm["ripple"]) * (1.0 - window(t, tm["calm"]))
+    return StageState(turn=min(1.0, turn_at(controls, t)), waves=waves)
 
 
-def _belt_height(state: StageState) -> tuple[float, float]:
-    """(p, q) of the guide's height Z = p sin + q sin cos^M."""
-    if state.tuck > 0.0:
-        k = state.tuck
-        # q falls from BELT_HEIGHT to 0 through 1 at k = 1/2 (quadratic through 3 points)
-        c2 = 2.0 * BELT_HEIGHT - 4.0
-        c1 = -BELT_HEIGHT - c2
-        return -1.0, BELT_HEIGHT + c1 * k + c2 * k * k
-    return 1.0 - 2.0 * state.swap, BELT_HEIGHT * state.swap
+def _round_frame(lat):
+    """Round meridian point g0 (= outward normal n0) and tangent T0, each (..., 3)."""
+    c, s = np.cos(lat), np.sin(lat)
+    z = 0.0 * c
+    return np.stack([c, z, s], -1), np.stack([-s, z, c], -1)
 
 
 def guide_and_tangent(lat, state: StageState):
-    """Guide point g and its latitude derivative dg/dlat, each (..., 3); complex-analytic in lat."""
-    c, s = np.cos(lat), np.sin(lat)
-    k = state.tuck
-    e = BULGE * state.bulge
-    rad = c * (1.0 + e * c**BULGE_EXPONENT)
-    rad_d = -s * (1.0 + e * (BULGE_EXPONENT + 1) * c**BULGE_EXPONENT)
-    s1 = np.sin(TWIST_EDGE)
-    lin = 2.0 * _step(lat, -TWIST_EDGE, TWIST_EDGE) - 1.0
-    lin_d = 2.0 * _step_d(lat, -TWIST_EDGE, TWIST_EDGE)
-    cub = 2.0 * _step(s**3, -(s1**3), s1**3) - 1.0
-    cub_d = 2.0 * _step_d(s**3, -(s1**3), s1**3) * 3.0 * s * s * c
-    sh = TWIST_EQUATOR_SHARE
-    az = -np.pi * state.twist * (sh * lin + (1.0 - sh) * cub)
-    az_d = -np.pi * state.twist * (sh * lin_d + (1.0 - sh) * cub_d)
-    ca, sa = np.cos(az), np.sin(az)
-    hx = (1.0 - k) * ca - k
-    hy = (1.0 - k) * sa
-    x = rad * hx
-    y = rad * hy
-    x_d = rad_d * hx - rad * (1.0 - k) * sa * az_d
-    y_d = rad_d * hy + rad * (1.0 - k) * ca * az_d
-    p, q = _belt_height(state)
-    m = BELT_EXPONENT
-    z = p * s + q * s * c**m
-    z_d = p * c + q * c ** (m - 1) * (c * c - m * s * s)
-    return np.stack([x, y, z], -1), np.stack([x_d, y_d, z_d], -1)
+    """Guide point g and its latitude derivative T (unit), each (..., 3); analytic in lat."""
+    cp, sp = state.cos_sin()
+    g0, t0 = _round_frame(lat)
+    ch = chi(lat)
+    ey = np.array([0.0, 1.0, 0.0])
+    e = np.cos(ch)[..., None] * ey + np.sin(ch)[..., None] * g0
+    g = cp * g0 + sp * guide_offset_curve(lat)
+    return g, cp * t0 + sp * e
 
 
 def wave_frame(lat, state: StageState, depth: float):
-    """Guide point, unit wave axis, unit side vector and local depth along the guide.
-
-    Returns (g, axis, side, d): g, axis, side (..., 3); d (...,). ``axis`` is the normal
-    component of the latitude velocity e_z x g (lifted slightly while the guide passes the
-    axis); ``side`` = tangent x axis.
-    """
-    g, g_d = guide_and_tangent(lat, state)
-    tangent = g_d / np.sqrt(_dot(g_d, g_d))[..., None]
-    lift = AXIS_LIFT * state.lift
-    v = np.stack([-g[..., 1], g[..., 0], 0.0 * g[..., 2] + lift], -1)
-    axis = v - _dot(v, tangent)[..., None] * tangent
-    axis = axis / np.sqrt(_dot(axis, axis))[..., None]
+    """Guide point, unit wave axis, unit side vector and local depth along the guide."""
+    cp, sp = state.cos_sin()
+    g0, t0 = _round_frame(lat)
+    ch = chi(lat)
+    cc, sc = np.cos(ch)[..., None], np.sin(ch)[..., None]
+    ey = np.array([0.0, 1.0, 0.0])
+    e = cc * ey + sc * g0
+    tangent = cp * t0 + sp * e
+    g = cp * g0 + sp * guide_offset_curve(lat)
+    # axis = Rot(k, p) w: w = e_y turned by beta about T0, k = T0 x E the turning axis
+    beta = (2.0 * float(ease(state.turn))) * ch
+    w = np.cos(beta)[..., None] * ey + np.sin(beta)[..., None] * g0
+    k = sc * ey - cc * g0
+    axis = cp * w + sp * np.cross(k, w) + (1.0 - cp) * _dot(k, w)[..., None] * k
     side = np.cross(tangent, axis)
     lat_env = 1.0 - _step(lat * lat, WAVE_FULL_LAT**2, WAVE_END_LAT**2)
     d = depth * state.waves * lat_env
@@ -235,6 +262,7 @@ def positions_at(controls: Controls, t: float, mesh: SphereMesh) -> np.ndarray:
     grid = surface(controls, t, mesh.theta, mesh.lat)  # (n_lat, n_lon, 3)
     state = stage_state(controls, t)
     poles, _ = guide_and_tangent(np.array([-np.pi / 2, np.pi / 2]), state)
+    poles[:, :2] = 0.0  # on the axis (the closed form puts them there to rounding)
     out = np.empty((mesh.n_vertices, 3))
     out[0] = poles[0]
     out[1:-1] = grid.reshape(-1, 3)

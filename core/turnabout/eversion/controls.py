@@ -86,14 +86,19 @@ class Controls:
         return out
 
 
-def default_depth(strips: int) -> float:  # noqa: ARG001 - kept per strip count for later tuning
-    """The documented corrugation depth for a strip count (fraction of the radius)."""
-    return 0.1
+def default_depth(strips: int) -> float:
+    """The documented corrugation depth for a strip count (fraction of the radius).
+
+    Chosen from full regularity scans (README, "Regularity"): deep enough that the waves
+    dominate the rotation where the wave axis cannot follow it, shallow enough to stay
+    inside the guide's focal distance.
+    """
+    return 0.14 if strips <= 12 else 0.12
 
 
-def depth_range(strips: int) -> tuple[float, float]:  # noqa: ARG001
+def depth_range(strips: int) -> tuple[float, float]:
     """Allowed corrugation depth (inclusive) for a strip count, as a fraction of the radius."""
-    return (0.05, 0.15)
+    return (0.13, 0.16) if strips < 10 else (0.10, 0.16)
 
 
 def _finite(option: str, value) -> float:

@@ -16,7 +16,8 @@ Two independent computations of that obstruction:
 
 The relative Euler number of the normal bundle T*(TS^2) is chi(S^2) = 2 times that degree,
 so the index sum equals twice the sweep class (a test checks this). The guide motion of
-the current construction has class 1: no wave axis at all can make it regular.
+the construction has class 0 by design (docs/eversion.md); a motion of class 1, as an
+earlier design had, admits no wave axis at all.
 """
 
 from __future__ import annotations
