@@ -12,18 +12,19 @@ symmetry about the axis.
 The guide depends on one angle p in [0, pi], the *turn*. Its unit tangent turns, at every
 latitude, along a great circle from the round meridian's tangent T0 to -T0:
 
-    T = cos(p) T0 + sin(p) E,        E = cos(chi) e_y + sin(chi) n0,   chi = -X sin(2 lat)
+    T = cos(p) T0 + sin(p) E,   E = cos(chi) e_y + sin(chi) n0,   chi = -X sum_k r_k sin(2k lat)
 
 with n0 the round sphere's outward normal, and the guide is the integral of T along
 latitude, centred so that both ends lie on the axis:
 
     g(lat, p) = cos(p) g0(lat) + sin(p) (G(lat) - c e_x),     G' = E, G(0) = 0.
 
-The ends stay on the axis exactly because X is the first zero of the Bessel function J0:
-the y-part of G at the poles is (pi/2) J0(X). G has a closed form as a trigonometric
-series with Bessel coefficients (Jacobi-Anger expansion of cos(X sin 2 lat) and
-sin(X sin 2 lat)), so every function of latitude here is complex-analytic: F_lat is taken
-by complex step (exact to rounding) and F_theta analytically.
+The ends stay on the axis because X makes the mean of cos(chi) vanish: the y-part of G at
+the poles. For chi = -X sin(2 lat) that is J0(X) = 0 (Jacobi-Anger expansion), so X is the
+first zero of J0; the shape used adds two small harmonics, chosen to lower the peak
+curvature. G has a closed form as a trigonometric series (coefficients by FFT), so every
+function of latitude is complex-analytic: F_lat is taken by complex step (exact to
+rounding) and F_theta analytically.
 
 * The caps turn by +p (south) and -p (north) about the axis: the odd relative turn that
   the frame obstruction (pi_1(SO(3)) = Z/2) demands.
@@ -51,10 +52,12 @@ from .controls import Controls
 # First zero of the Bessel function J0 (Abramowitz and Stegun, Handbook of Mathematical
 # Functions, 1964, table 9.5): makes the guide close on the axis.
 J0_FIRST_ZERO = 2.404825557695773
-WAVE_ASPECT = 1.0  # back-and-forth amplitude of the figure-eight, relative to depth / 2
+WAVE_ASPECT = 0.53  # back-and-forth amplitude of the figure-eight, relative to depth / 2
 WAVE_FULL_LAT = 0.9  # |lat| (rad) below which the waves have full depth
 WAVE_END_LAT = 1.3  # |lat| (rad) beyond which there are no waves
-SERIES_TERMS = 14  # terms of each Bessel series (the next coefficient is below 1e-24)
+# chi = -X sum_k r_k sin(2k lat): the r_k, chosen by minimising the peak curvature on coarse
+# scans (docs/eversion.md, section 5); (1,) would give X = the first zero of J0.
+CHI_SHAPE: tuple[float, ...] = (1.0, 0.1678, -0.1691)
 COMPLEX_STEP = 1e-30
 
 # Shares of the turn driven by each motion stage (they sum to 1).
@@ -87,35 +90,110 @@ def _dot(a, b):
 # --- the guide's closed form ----------------------------------------------------------------
 
 
-def _bessel_j(x: float, count: int, samples: int = 256) -> np.ndarray:
-    """J_0(x) ... J_{count-1}(x) from exp(i x sin phi) = sum J_m(x) e^{i m phi} (by FFT)."""
-    phi = 2.0 * np.pi * np.arange(samples) / samples
-    return np.real(np.fft.fft(np.exp(1j * x * np.sin(phi))))[:count] / samples
+@dataclass(frozen=True)
+class GuideShape:
+    """The closed form of G for chi = -X sum_k r_k sin(2 k lat), with X closing the guide.
+
+    cos(chi), sin(chi) cos(lat) and sin(chi) sin(lat) are 2 pi-periodic and analytic, so
+    their Fourier series (from an FFT, truncated where the coefficients fall below 1e-15)
+    integrate term by term. X is the first root of mean(cos chi) = 0: the y-part of G at
+    the poles, which must vanish for the ends to stay on the axis. For chi = -X sin(2 lat)
+    this is J0(X) = 0 (Jacobi-Anger expansion).
+    """
+
+    ratios: tuple[float, ...]
+    amplitude: float
+    orders: np.ndarray  # m >= 1
+    cos_chi: np.ndarray  # cosine coefficients of cos(chi) (its mean is 0 by the closure)
+    sx: np.ndarray  # sine coefficients of sin(chi) cos(lat)
+    sz0: float  # mean of sin(chi) sin(lat)
+    sz: np.ndarray  # cosine coefficients of sin(chi) sin(lat)
+
+    def chi(self, lat):
+        k = np.arange(1, len(self.ratios) + 1)
+        terms = np.asarray(self.ratios) * np.sin(2.0 * k * lat[..., None])
+        return -self.amplitude * terms.sum(-1)
+
+    def integral(self, lat):
+        """G(lat) = int_0^lat E, (..., 3)."""
+        la = np.asarray(lat)[..., None]
+        m = self.orders
+        sm, cm = np.sin(m * la), np.cos(m * la)
+        gx = (self.sx * (1.0 - cm) / m).sum(-1)
+        gy = (self.cos_chi * sm / m).sum(-1)
+        gz = self.sz0 * la[..., 0] + (self.sz * sm / m).sum(-1)
+        return np.stack([gx, gy, gz], -1)
 
 
-_J = _bessel_j(J0_FIRST_ZERO, 2 * SERIES_TERMS + 2)
-# cos(chi) = J0 + sum_k 2 J_2k cos(4k lat); J0 = 0 at the chosen X (exactly, by definition).
-_COS_M = 4.0 * np.arange(1, SERIES_TERMS + 1)
-_COS_A = 2.0 * _J[2 * np.arange(1, SERIES_TERMS + 1)]
-# sin(chi) = -sum_k 2 J_(2k+1) sin((4k+2) lat)
-_SIN_M = 4.0 * np.arange(SERIES_TERMS) + 2.0
-_SIN_B = -2.0 * _J[2 * np.arange(SERIES_TERMS) + 1]
+def _fourier(values: np.ndarray):
+    n = values.size
+    f = np.fft.rfft(values) / n
+    return float(f[0].real), 2.0 * f[1:].real, -2.0 * f[1:].imag
+
+
+def _closing_amplitude(profile: np.ndarray) -> float:
+    """First root X > 0 of mean(cos(X profile)) = 0 (bracketed scan, then bisection)."""
+    xs = np.arange(0.05, 20.0, 0.05)
+    vals = np.array([np.cos(x * profile).mean() for x in xs])
+    idx = np.nonzero(np.sign(vals[1:]) != np.sign(vals[:-1]))[0]
+    if idx.size == 0:
+        raise ValueError("this chi profile cannot close the guide")
+    lo, hi = xs[idx[0]], xs[idx[0] + 1]
+    flo = vals[idx[0]]
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        fm = np.cos(mid * profile).mean()
+        if np.sign(fm) == np.sign(flo):
+            lo, flo = mid, fm
+        else:
+            hi = mid
+        if hi - lo < 1e-16:
+            break
+    return 0.5 * (lo + hi)
+
+
+_SHAPES: dict[tuple[float, ...], GuideShape] = {}
+
+
+def guide_shape(ratios: tuple[float, ...] | None = None, samples: int = 1024) -> GuideShape:
+    ratios = CHI_SHAPE if ratios is None else tuple(float(r) for r in ratios)
+    cached = _SHAPES.get(ratios)
+    if cached is not None:
+        return cached
+    lat = 2.0 * np.pi * np.arange(samples) / samples
+    k = np.arange(1, len(ratios) + 1)
+    profile = (np.asarray(ratios) * np.sin(2.0 * k * lat[:, None])).sum(-1)
+    x = _closing_amplitude(profile)
+    ch = -x * profile
+    _, cos_a, _ = _fourier(np.cos(ch))
+    _, _, sx_b = _fourier(np.sin(ch) * np.cos(lat))
+    sz0, sz_a, _ = _fourier(np.sin(ch) * np.sin(lat))
+    keep = np.abs(np.stack([cos_a, sx_b, sz_a])).max(0) > 1e-15
+    top = int(np.nonzero(keep)[0].max()) + 1
+    shape = GuideShape(
+        ratios=ratios,
+        amplitude=float(x),
+        orders=np.arange(1, top + 1, dtype=float),
+        cos_chi=cos_a[:top],
+        sx=sx_b[:top],
+        sz0=sz0,
+        sz=sz_a[:top],
+    )
+    _SHAPES[ratios] = shape
+    return shape
 
 
 def chi(lat):
     """Angle of the tangent's turning plane about T0, measured from e_y towards n0."""
-    return -J0_FIRST_ZERO * np.sin(2.0 * lat)
+    return guide_shape().chi(np.asarray(lat))
 
 
 def guide_offset_curve(lat):
     """G(lat) - c e_x: the closed curve the guide passes through at p = pi / 2, (..., 3)."""
-    la = np.asarray(lat)[..., None]
-    m, a = _COS_M, _COS_A
-    mb, b = _SIN_M, _SIN_B
-    gy = (a * np.sin(m * la) / m).sum(-1)
-    gx = -(0.5 * b * (np.cos((mb + 1) * la) / (mb + 1) + np.cos((mb - 1) * la) / (mb - 1))).sum(-1)
-    gz = (0.5 * b * (np.sin((mb - 1) * la) / (mb - 1) - np.sin((mb + 1) * la) / (mb + 1))).sum(-1)
-    return np.stack([gx, gy, gz], -1)
+    shape = guide_shape()
+    g = shape.integral(lat)
+    c = shape.integral(np.array(np.pi / 2))[0]
+    return g - np.array([c, 0.0, 0.0])
 
 
 # Landmarks of the turn: the caps are level (south pole height 0) when tan p = 1 / G_z(S);

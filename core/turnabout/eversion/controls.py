@@ -86,19 +86,25 @@ class Controls:
         return out
 
 
-def default_depth(strips: int) -> float:
-    """The documented corrugation depth for a strip count (fraction of the radius).
+# Documented depth per strip count, from coarse scans of ratio and curvature over depths
+# 0.13-0.18 (docs/eversion.md, section 5): the shallowest depth whose normalised ratio keeps
+# a margin of about 0.08 is the smoothest, since the bend comes from waves that barely
+# dominate. Counts above 16 use the depth of 16 and are checked by the build gate only.
+_DEPTHS = {8: 0.16, 9: 0.16}
 
-    Chosen from full regularity scans (README, "Regularity"): deep enough that the waves
-    dominate the rotation where the wave axis cannot follow it, shallow enough to stay
-    inside the guide's focal distance.
-    """
-    return 0.14 if strips <= 12 else 0.12
+
+def default_depth(strips: int) -> float:
+    """The documented corrugation depth for a strip count (fraction of the radius)."""
+    return _DEPTHS.get(strips, 0.15)
 
 
 def depth_range(strips: int) -> tuple[float, float]:
-    """Allowed corrugation depth (inclusive) for a strip count, as a fraction of the radius."""
-    return (0.13, 0.16) if strips < 10 else (0.10, 0.16)
+    """Allowed corrugation depth (inclusive) for a strip count, as a fraction of the radius.
+
+    Below the range the waves no longer dominate the rotation where the wave axis cannot
+    follow it (the surface nears a fold); above it they reach the guide's focal distance.
+    """
+    return (0.13, 0.16)
 
 
 def _finite(option: str, value) -> float:
