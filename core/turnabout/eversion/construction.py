@@ -108,11 +108,10 @@ class GuideShape:
     sx: np.ndarray  # sine coefficients of sin(chi) cos(lat)
     sz0: float  # mean of sin(chi) sin(lat)
     sz: np.ndarray  # cosine coefficients of sin(chi) sin(lat)
+    centre_x: float  # c = G_x(pi/2) = G_x(-pi/2): shifts the guide's ends onto the axis
 
     def chi(self, lat):
-        k = np.arange(1, len(self.ratios) + 1)
-        terms = np.asarray(self.ratios) * np.sin(2.0 * k * lat[..., None])
-        return -self.amplitude * terms.sum(-1)
+        return -self.amplitude * _chi_profile(self.ratios, lat)
 
     def integral(self, lat):
         """G(lat) = int_0^lat E, (..., 3)."""
@@ -123,6 +122,12 @@ class GuideShape:
         gy = (self.cos_chi * sm / m).sum(-1)
         gz = self.sz0 * la[..., 0] + (self.sz * sm / m).sum(-1)
         return np.stack([gx, gy, gz], -1)
+
+
+def _chi_profile(ratios: tuple[float, ...], lat):
+    """sum_k r_k sin(2 k lat), (...,); complex-analytic in lat."""
+    k = np.arange(1, len(ratios) + 1)
+    return (np.asarray(ratios) * np.sin(2.0 * k * np.asarray(lat)[..., None])).sum(-1)
 
 
 def _fourier(values: np.ndarray):
@@ -161,8 +166,7 @@ def guide_shape(ratios: tuple[float, ...] | None = None, samples: int = 1024) ->
     if cached is not None:
         return cached
     lat = 2.0 * np.pi * np.arange(samples) / samples
-    k = np.arange(1, len(ratios) + 1)
-    profile = (np.asarray(ratios) * np.sin(2.0 * k * lat[:, None])).sum(-1)
+    profile = _chi_profile(ratios, lat)
     x = _closing_amplitude(profile)
     ch = -x * profile
     _, cos_a, _ = _fourier(np.cos(ch))
@@ -170,14 +174,18 @@ def guide_shape(ratios: tuple[float, ...] | None = None, samples: int = 1024) ->
     sz0, sz_a, _ = _fourier(np.sin(ch) * np.sin(lat))
     keep = np.abs(np.stack([cos_a, sx_b, sz_a])).max(0) > 1e-15
     top = int(np.nonzero(keep)[0].max()) + 1
+    orders = np.arange(1, top + 1, dtype=float)
+    # G_x(pi/2): the sine series of sin(chi) cos(lat) integrated, at lat = pi/2
+    centre_x = float((sx_b[:top] * (1.0 - np.cos(orders * np.pi / 2)) / orders).sum())
     shape = GuideShape(
         ratios=ratios,
         amplitude=float(x),
-        orders=np.arange(1, top + 1, dtype=float),
+        orders=orders,
         cos_chi=cos_a[:top],
         sx=sx_b[:top],
         sz0=sz0,
         sz=sz_a[:top],
+        centre_x=centre_x,
     )
     _SHAPES[ratios] = shape
     return shape
@@ -191,9 +199,7 @@ def chi(lat):
 def guide_offset_curve(lat):
     """G(lat) - c e_x: the closed curve the guide passes through at p = pi / 2, (..., 3)."""
     shape = guide_shape()
-    g = shape.integral(lat)
-    c = shape.integral(np.array(np.pi / 2))[0]
-    return g - np.array([c, 0.0, 0.0])
+    return shape.integral(lat) - np.array([shape.centre_x, 0.0, 0.0])
 
 
 # Landmarks of the turn: the caps are level (south pole height 0) when tan p = 1 / G_z(S);
@@ -244,27 +250,31 @@ def _round_frame(lat):
     return np.stack([c, z, s], -1), np.stack([-s, z, c], -1)
 
 
-def guide_and_tangent(lat, state: StageState):
-    """Guide point g and its latitude derivative T (unit), each (..., 3); analytic in lat."""
+_EY = np.array([0.0, 1.0, 0.0])
+
+
+def _guide_parts(lat, state: StageState):
+    """(g, T, g0, chi): guide point, unit tangent, round meridian point and chi, analytic."""
     cp, sp = state.cos_sin()
     g0, t0 = _round_frame(lat)
     ch = chi(lat)
-    ey = np.array([0.0, 1.0, 0.0])
-    e = np.cos(ch)[..., None] * ey + np.sin(ch)[..., None] * g0
+    e = np.cos(ch)[..., None] * _EY + np.sin(ch)[..., None] * g0
     g = cp * g0 + sp * guide_offset_curve(lat)
-    return g, cp * t0 + sp * e
+    return g, cp * t0 + sp * e, g0, ch
+
+
+def guide_and_tangent(lat, state: StageState):
+    """Guide point g and its latitude derivative T (unit), each (..., 3); analytic in lat."""
+    g, tangent, _, _ = _guide_parts(lat, state)
+    return g, tangent
 
 
 def wave_frame(lat, state: StageState, depth: float):
     """Guide point, unit wave axis, unit side vector and local depth along the guide."""
     cp, sp = state.cos_sin()
-    g0, t0 = _round_frame(lat)
-    ch = chi(lat)
+    g, tangent, g0, ch = _guide_parts(lat, state)
     cc, sc = np.cos(ch)[..., None], np.sin(ch)[..., None]
-    ey = np.array([0.0, 1.0, 0.0])
-    e = cc * ey + sc * g0
-    tangent = cp * t0 + sp * e
-    g = cp * g0 + sp * guide_offset_curve(lat)
+    ey = _EY
     # axis = Rot(k, p) w: w = e_y turned by beta about T0, k = T0 x E the turning axis
     beta = (2.0 * float(ease(state.turn))) * ch
     w = np.cos(beta)[..., None] * ey + np.sin(beta)[..., None] * g0
