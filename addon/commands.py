@@ -12,6 +12,7 @@ import sys
 import time
 
 import numpy as np
+from turnabout.eversion.controls import DEFAULT_FRAMES
 
 HELP = {
     "scene": "write a ready .blend: baked eversion, two-sided material, camera and lights",
@@ -75,7 +76,12 @@ def _add_build_options(p: argparse.ArgumentParser) -> None:
         metavar="STAGE=START:END",
         help=f"a stage's window as fractions of the motion; stages: {', '.join(STAGE_NAMES)}",
     )
-    g.add_argument("--frames", type=int, default=120, help="length of the motion in frames (>= 2)")
+    g.add_argument(
+        "--frames",
+        type=int,
+        default=DEFAULT_FRAMES,
+        help=f"length of the motion in frames (>= 2; default {DEFAULT_FRAMES})",
+    )
     g.add_argument("--start", type=int, default=1, help="scene frame where the motion starts")
     g.add_argument("--key-step", type=int, default=1, help="store a shape every N frames (>= 1)")
     g.add_argument(
@@ -152,7 +158,12 @@ def add_parser(subparsers, name: str):
         p.add_argument(
             "--out", default="turnabout-demo", help="output folder (default ./turnabout-demo)"
         )
-        p.add_argument("--frames", type=int, default=120, help="length of the motion in frames")
+        p.add_argument(
+            "--frames",
+            type=int,
+            default=DEFAULT_FRAMES,
+            help=f"length of the motion in frames (default {DEFAULT_FRAMES})",
+        )
         p.add_argument(
             "--mesh",
             type=_pair,

@@ -241,7 +241,7 @@ def read_png(path: str) -> np.ndarray:
 
 def build_scene(
     controls,
-    frames: int = 120,
+    frames: int | None = None,
     frame_start: int = 1,
     key_step: int = 1,
     mesh=None,

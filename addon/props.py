@@ -19,7 +19,14 @@ from bpy.props import (
     PointerProperty,
     StringProperty,
 )
-from turnabout.eversion import MAX_STRIPS, MIN_STRIPS, STAGE_HELP, STAGE_NAMES, Controls
+from turnabout.eversion import (
+    DEFAULT_FRAMES,
+    MAX_STRIPS,
+    MIN_STRIPS,
+    STAGE_HELP,
+    STAGE_NAMES,
+    Controls,
+)
 
 # Our default side colours: a warm apricot outside, a deep teal inside.
 OUTER_COLOUR = (0.93, 0.52, 0.22, 1.0)
@@ -100,8 +107,9 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     # --- frames and sampling
     frames: IntProperty(
         name="Frames",
-        description="Length of the motion in frames (2 or more)",
-        default=120,
+        description="Length of the motion in frames (2 or more; the default, 20 s at 24 fps, "
+        "keeps every vertex within one edge length per frame)",
+        default=DEFAULT_FRAMES,
         min=2,
         soft_max=2000,
     )
@@ -119,14 +127,14 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     )
     mesh_lon: IntProperty(
         name="Longitude samples",
-        description="Vertices around each ring (0 = the construction's default)",
+        description="Vertices around each ring (0 = the default: placed where the surface bends)",
         default=0,
         min=0,
         soft_max=1024,
     )
     mesh_lat: IntProperty(
         name="Latitude rings",
-        description="Rings between the poles (0 = the construction's default)",
+        description="Rings between the poles (0 = the default: placed where the surface bends)",
         default=0,
         min=0,
         soft_max=512,
@@ -182,7 +190,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         default=True,
     )
     check_start: IntProperty(name="First frame", default=1)
-    check_end: IntProperty(name="Last frame", default=120)
+    check_end: IntProperty(name="Last frame", default=DEFAULT_FRAMES)
     check_intersections: BoolProperty(
         name="Double curves",
         description="Find self-intersections (double curves and triple points); slower",

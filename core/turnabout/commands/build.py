@@ -6,8 +6,17 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..eversion import STAGE_HELP, STAGE_NAMES, ControlError, Controls, build, default_mesh
+from ..eversion import (
+    DEFAULT_FRAMES,
+    STAGE_HELP,
+    STAGE_NAMES,
+    ControlError,
+    Controls,
+    build,
+    default_mesh,
+)
 from ..eversion.controls import MAX_STRIPS, MIN_STRIPS, depth_range
+from ..eversion.spacing import CREASE_AIM_DEG, EVEN_PER_STRIP, EVEN_RINGS, SPACINGS
 from ..progress import Cancelled, ProgressBar
 
 
@@ -56,18 +65,32 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
             help=f"when {STAGE_HELP[stage]}: fractions of the motion in [0, 1] "
             f"(default {a:g},{b:g})",
         )
-    p.add_argument("--frames", type=int, default=120, help="number of frames, >= 2 (default 120)")
+    p.add_argument(
+        "--frames",
+        type=int,
+        default=DEFAULT_FRAMES,
+        help=f"number of frames, >= 2 (default {DEFAULT_FRAMES}: 20 s at 24 fps)",
+    )
+    p.add_argument(
+        "--spacing",
+        choices=SPACINGS,
+        default="bend",
+        help="where the mesh puts its vertices: 'bend' where the surface bends, as many as "
+        f"keep neighbouring faces within about {CREASE_AIM_DEG:g} deg in every frame; 'even' "
+        f"a plain grid ({EVEN_PER_STRIP} per strip x {EVEN_RINGS} rings) (default bend)",
+    )
     p.add_argument(
         "--lon",
         type=int,
         default=None,
-        help="longitude samples, a multiple of strips with >= 8 per strip (default 32 per strip)",
+        help="longitude samples, a multiple of strips with >= 8 per strip "
+        "(default: from --spacing)",
     )
     p.add_argument(
         "--lat",
         type=int,
         default=None,
-        help="latitude rings between the poles, >= 16 (default 127)",
+        help="latitude rings between the poles, >= 16 (default: from --spacing)",
     )
     p.add_argument(
         "--out",
@@ -120,7 +143,7 @@ def run(args) -> int:
                 rep = scan(controls, n_theta=nt, n_lat=nl, n_times=ns, progress=bar)
             print(rep.summary())
             return 0
-        mesh = default_mesh(controls, args.lon, args.lat)
+        mesh = default_mesh(controls, args.lon, args.lat, spacing=args.spacing)
         fmt = args.format or (
             "npz"
             if args.out is None or args.out.suffix == ".npz"

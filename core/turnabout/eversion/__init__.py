@@ -5,11 +5,12 @@ Public API::
     controls = Controls(strips=8)             # validated artistic controls
     mesh = default_mesh(controls)             # SphereMesh sampled where the waves bend
     P = evaluate(controls, times, mesh)       # (frames, V, 3) float64 positions
-    ev = build(controls, frames=120)          # Eversion: positions float32, faces, uv, times
+    ev = build(controls)                      # Eversion of DEFAULT_FRAMES (480) frames
 """
 
 from .build import Eversion, build, check_resolution, default_mesh, evaluate
 from .controls import (
+    DEFAULT_FRAMES,
     MAX_STRIPS,
     MIN_STRIPS,
     STAGE_HELP,
@@ -22,6 +23,7 @@ from .controls import (
 from .regularity import RegularityError, RegularityReport, quick_scan, scan
 
 __all__ = [
+    "DEFAULT_FRAMES",
     "MAX_STRIPS",
     "MIN_STRIPS",
     "STAGE_HELP",

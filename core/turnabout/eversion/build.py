@@ -9,8 +9,9 @@ import numpy as np
 from ..mesh import SphereMesh
 from ..progress import ProgressFn, no_progress
 from . import construction
-from .controls import ControlError, Controls
+from .controls import DEFAULT_FRAMES, ControlError, Controls
 from .regularity import require_regular
+from .spacing import mesh_for
 
 MIN_SAMPLES_PER_WAVE = 8
 MIN_LAT_RINGS = 16
@@ -35,11 +36,13 @@ class Eversion:
     times: np.ndarray
 
 
-def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
-    """Refuse meshes too coarse for the waves or too large to hold."""
-    for name, v in (("longitude samples", n_lon), ("latitude rings", n_lat)):
-        if isinstance(v, bool) or not isinstance(v, (int, np.integer)):
-            raise ControlError(name, f"must be an integer, got {v!r}")
+def _integer(name: str, v) -> None:
+    if isinstance(v, bool) or not isinstance(v, (int, np.integer)):
+        raise ControlError(name, f"must be an integer, got {v!r}")
+
+
+def _check_lon(controls: Controls, n_lon) -> None:
+    _integer("longitude samples", n_lon)
     need = MIN_SAMPLES_PER_WAVE * controls.strips
     if n_lon < need or n_lon % controls.strips:
         raise ControlError(
@@ -47,8 +50,18 @@ def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
             f"must be a multiple of strips ({controls.strips}) and at least {need} "
             f"({MIN_SAMPLES_PER_WAVE} samples per wave), got {n_lon}",
         )
+
+
+def _check_lat(n_lat) -> None:
+    _integer("latitude rings", n_lat)
     if n_lat < MIN_LAT_RINGS:
         raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
+
+
+def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
+    """Refuse meshes too coarse for the waves or too large to hold."""
+    _check_lon(controls, n_lon)
+    _check_lat(n_lat)
     if n_lon * n_lat + 2 > MAX_VERTICES:
         raise ControlError(
             "resolution",
@@ -57,10 +70,21 @@ def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
 
 
 def default_mesh(
-    controls: Controls, n_lon: int | None = None, n_lat: int | None = None
+    controls: Controls,
+    n_lon: int | None = None,
+    n_lat: int | None = None,
+    spacing: str = "bend",
 ) -> SphereMesh:
-    """The default sphere mesh for these controls (32 samples per strip x 127 rings)."""
-    mesh = construction.mesh_for(controls, n_lon=n_lon, n_lat=n_lat)
+    """The sphere mesh for these controls; see :func:`turnabout.eversion.spacing.mesh_for`.
+
+    By default the vertices sit where the surface bends, as many as keep the angle between
+    neighbouring faces near the aim (``spacing.CREASE_AIM_DEG``) in every frame.
+    """
+    if n_lon is not None:
+        _check_lon(controls, n_lon)
+    if n_lat is not None:
+        _check_lat(n_lat)
+    mesh = mesh_for(controls, n_lon=n_lon, n_lat=n_lat, spacing=spacing)
     check_resolution(controls, mesh.n_lon, mesh.n_lat)
     return mesh
 
@@ -91,7 +115,7 @@ def evaluate(
 
 def build(
     controls: Controls,
-    frames: int = 120,
+    frames: int = DEFAULT_FRAMES,
     mesh: SphereMesh | None = None,
     progress: ProgressFn = no_progress,
     check: bool = True,

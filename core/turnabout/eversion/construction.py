@@ -45,7 +45,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..mesh import SphereMesh, uniform_sphere_mesh
+from ..mesh import SphereMesh
 from .controls import Controls
 
 # --- shape constants (dimensionless; see docs/eversion.md) -------------------------------
@@ -338,11 +338,6 @@ def jacobian(controls: Controls, t: float, theta, lat):
     loc_c = _local(th.astype(complex), (la + 1j * h), state, n, depth)
     F_lat = _rotate(th, loc_c.imag / h)
     return F, F_theta, F_lat
-
-
-def mesh_for(controls: Controls, n_lon: int | None = None, n_lat: int | None = None) -> SphereMesh:
-    """Default mesh: 32 longitude samples per strip, 127 latitude rings."""
-    return uniform_sphere_mesh(n_lon or 32 * controls.strips, n_lat or 127)
 
 
 def positions_at(controls: Controls, t: float, mesh: SphereMesh) -> np.ndarray:

@@ -44,7 +44,16 @@ class RegularityReport:
     ratio_per_time: np.ndarray
     curvature_per_time: np.ndarray
     grid: tuple[int, int] = (0, 0)
+    per_strip: bool = False  # grid[0] samples one strip period rather than the circle
     notes: list[str] = field(default_factory=list)
+    # Bend profile (with curvature only): the scan's theta (one strip or the whole circle)
+    # and interior latitudes, and the largest normal-turning rate |dn/dtheta| per theta
+    # (over every latitude and time) and |dn/dlat| per latitude (over every theta and time),
+    # in radians per radian. The bend-adaptive mesh (eversion.spacing) is built from them.
+    theta: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    lat: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    bend_theta: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    bend_lat: np.ndarray = field(default_factory=lambda: np.zeros(0))
 
     def first_failure(self, min_ratio: float = MIN_RATIO, max_curvature: float = MAX_CURVATURE):
         bad = np.nonzero(
@@ -56,7 +65,9 @@ class RegularityReport:
         t, th, la = self.min_ratio_at
         tc, thc, lac = self.max_curvature_at
         return (
-            f"grid {self.grid[0]} x {self.grid[1]} (theta x lat), {self.times.size} times\n"
+            f"grid {self.grid[0]} x {self.grid[1]} "
+            f"({'theta per strip' if self.per_strip else 'theta'} x lat), "
+            f"{self.times.size} times\n"
             f"min normalised ratio {self.min_ratio:.4f} at t={t:.4f}, "
             f"theta={np.degrees(th):.2f} deg, "
             f"lat={np.degrees(la):.2f} deg\n"
@@ -83,9 +94,13 @@ def _ratio(F_theta, F_lat, lat):
     return det / np.maximum(smax2, 1e-300)
 
 
-def _max_curvature(controls, t, theta, lat, h=1e-5):
-    """Largest |principal curvature| on the grid, (l, m)."""
-    F, Ft, Fl = C.jacobian(controls, t, theta, lat)
+def _fundamental_forms(controls, t, theta, lat, h=1e-5):
+    """(E, F, G, L, M, N) of the surface on the grid, each (l, m).
+
+    First derivatives are exact (see :func:`construction.jacobian`); the second are central
+    differences of them, with error O(h^2).
+    """
+    _, Ft, Fl = C.jacobian(controls, t, theta, lat)
     _, Ftp, Flp = C.jacobian(controls, t, theta + h, lat)
     _, Ftm, Flm = C.jacobian(controls, t, theta - h, lat)
     _, _, Flu = C.jacobian(controls, t, theta, lat + h)
@@ -98,11 +113,29 @@ def _max_curvature(controls, t, theta, lat, h=1e-5):
     n = n / np.maximum(nn, 1e-300)[..., None]
     E, Fm, G = (Ft * Ft).sum(-1), (Ft * Fl).sum(-1), (Fl * Fl).sum(-1)
     L, M, N = (Ftt * n).sum(-1), (Ftl * n).sum(-1), (Fll * n).sum(-1)
+    return E, Fm, G, L, M, N
+
+
+def _curvature_and_rates(controls, t, theta, lat):
+    """(largest |principal curvature|, |dn/dtheta|, |dn/dlat|) on the grid, each (l, m).
+
+    The rates are how fast the unit normal turns per unit of each parameter, in radians:
+    dn(X) = -S(X), and |S(F_theta)|^2 = [L M] I^-1 [L M]^T (similarly [M N] for lat). A mesh
+    edge of parameter length h bends its two faces by about rate x h.
+    """
+    E, Fm, G, L, M, N = _fundamental_forms(controls, t, theta, lat)
     det1 = np.maximum(E * G - Fm * Fm, 1e-300)
     H = (E * N - 2 * Fm * M + G * L) / (2 * det1)
     K = (L * N - M * M) / det1
     root = np.sqrt(np.maximum(H * H - K, 0.0))
-    return np.abs(H) + root
+    rate_t = np.sqrt(np.maximum(L * L * G - 2 * L * M * Fm + M * M * E, 0.0) / det1)
+    rate_l = np.sqrt(np.maximum(M * M * G - 2 * M * N * Fm + N * N * E, 0.0) / det1)
+    return np.abs(H) + root, rate_t, rate_l
+
+
+def _max_curvature(controls, t, theta, lat):
+    """Largest |principal curvature| on the grid, (l, m)."""
+    return _curvature_and_rates(controls, t, theta, lat)[0]
 
 
 def _pole_ratio(controls, t, h=1e-4):
@@ -127,9 +160,16 @@ def scan(
     n_times: int = 400,
     curvature: bool = True,
     progress: ProgressFn = no_progress,
+    one_strip: bool = False,
 ) -> RegularityReport:
-    """Scan the homotopy on an n_theta x n_lat grid (poles included) at n_times times."""
-    theta = np.arange(n_theta) * (2 * np.pi / n_theta)
+    """Scan the homotopy on an n_theta x n_lat grid (poles included) at n_times times.
+
+    ``one_strip`` puts the n_theta samples on one strip period [0, 2 pi / strips) instead
+    of the whole circle; the construction is exactly n-fold symmetric, so this sees the
+    same surface with ``strips`` times the density.
+    """
+    span = 2 * np.pi / controls.strips if one_strip else 2 * np.pi
+    theta = np.arange(n_theta) * (span / n_theta)
     lat_all = np.linspace(-np.pi / 2, np.pi / 2, n_lat)
     lat = lat_all[1:-1]  # poles are handled in their own chart
     times = scan_times(controls, n_times)
@@ -138,6 +178,8 @@ def scan(
     best = (np.inf, (0.0, 0.0, 0.0))
     worst_k = (0.0, (0.0, 0.0, 0.0))
     pole_min = np.inf
+    bend_t = np.zeros(theta.size)
+    bend_l = np.zeros(lat.size)
     for i, t in enumerate(times):
         _, Ft, Fl = C.jacobian(controls, float(t), theta, lat)
         r = _ratio(Ft, Fl, lat)
@@ -148,7 +190,9 @@ def scan(
         if r[j] < best[0]:
             best = (float(r[j]), (float(t), float(theta[j[1]]), float(lat[j[0]])))
         if curvature:
-            k = _max_curvature(controls, float(t), theta, lat)
+            k, rt, rl = _curvature_and_rates(controls, float(t), theta, lat)
+            np.maximum(bend_t, rt.max(axis=0), out=bend_t)
+            np.maximum(bend_l, rl.max(axis=1), out=bend_l)
             jk = np.unravel_index(np.argmax(k), k.shape)
             curv_t[i] = k[jk]
             if k[jk] > worst_k[0]:
@@ -166,31 +210,48 @@ def scan(
         ratio_per_time=ratio_t,
         curvature_per_time=curv_t,
         grid=(n_theta, n_lat),
+        per_strip=one_strip,
+        theta=theta,
+        lat=lat,
+        bend_theta=bend_t if curvature else np.zeros(0),
+        bend_lat=bend_l if curvature else np.zeros(0),
     )
 
 
+# The fast scan every build runs (and the bend profile of the default mesh comes from).
+QUICK_GRID = (48, 181, 120)  # theta per strip, latitudes (poles included), times
+
+
 def quick_scan(controls: Controls, progress: ProgressFn = no_progress) -> RegularityReport:
-    """The fast check every build runs: one strip period is enough by the exact n-fold symmetry."""
+    """The fast check every build runs, on one strip period (exact n-fold symmetry)."""
+    n_theta, n_lat, n_times = QUICK_GRID
     return scan(
         controls,
-        n_theta=24 * controls.strips,
-        n_lat=121,
-        n_times=120,
+        n_theta=n_theta,
+        n_lat=n_lat,
+        n_times=n_times,
         curvature=True,
         progress=progress,
+        one_strip=True,
     )
 
 
 _checked: dict[str, RegularityReport] = {}
 
 
-def require_regular(controls: Controls, progress: ProgressFn = no_progress) -> RegularityReport:
-    """Run the fast check (cached per controls) and raise RegularityError if it fails."""
+def quick_report(controls: Controls, progress: ProgressFn = no_progress) -> RegularityReport:
+    """The fast scan of these controls, run once per controls and then cached."""
     key = repr(controls.as_dict())
     rep = _checked.get(key)
     if rep is None:
         rep = quick_scan(controls, progress=progress)
         _checked[key] = rep
+    return rep
+
+
+def require_regular(controls: Controls, progress: ProgressFn = no_progress) -> RegularityReport:
+    """Run the fast check (cached per controls) and raise RegularityError if it fails."""
+    rep = quick_report(controls, progress=progress)
     i = rep.first_failure()
     if i is not None:
         t = rep.times[i]

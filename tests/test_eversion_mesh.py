@@ -1,0 +1,100 @@
+"""The eversion's mesh: bend-adaptive spacing, and the default build under the frame checker."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from turnabout.cli import main
+from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, default_mesh
+from turnabout.eversion import spacing as S
+from turnabout.eversion.regularity import quick_report
+
+
+def _gaps(mesh):
+    n = mesh.n_lon
+    th = np.concatenate([mesh.theta, [2 * np.pi]])
+    la = np.concatenate([[-np.pi / 2], mesh.lat, [np.pi / 2]])
+    return np.diff(th)[:n], np.diff(la)
+
+
+@pytest.mark.parametrize("strips", [8, 12])
+def test_bend_mesh_repeats_one_strip_exactly_and_grades_gently(strips):
+    ctl = Controls(strips=strips)
+    m = default_mesh(ctl)
+    per = m.n_lon // strips
+    assert m.n_lon % strips == 0
+    one = m.theta[:per]
+    for k in range(strips):
+        assert np.array_equal(m.theta[k * per : (k + 1) * per], one + k * (2 * np.pi / strips))
+    dth, dla = _gaps(m)
+    assert np.all(dth > 0) and np.all(dla > 0)
+    # neighbouring edges differ by at most the grading (plus interpolation slack)
+    for d in (np.append(dth, dth[0]), dla):
+        ratio = np.maximum(d[1:] / d[:-1], d[:-1] / d[1:])
+        assert ratio.max() < 1 + S.GRADING + 0.03
+
+
+@pytest.mark.parametrize("strips", [8, 12])
+def test_every_default_edge_meets_the_crease_aim_from_the_bend_profile(strips):
+    # rate x edge length is the angle between the normals at its ends (first order)
+    ctl = Controls(strips=strips)
+    rep = quick_report(ctl)
+    m = default_mesh(ctl)
+    aim = math.radians(S.CREASE_AIM_DEG)
+    per = m.n_lon // strips
+    th = np.append(m.theta[:per], 2 * np.pi / strips)
+    mid = 0.5 * (th[1:] + th[:-1])
+    period = 2 * np.pi / strips
+    rate_t = np.interp(mid, rep.theta, rep.bend_theta, period=period)
+    assert (rate_t * np.diff(th)).max() <= 1.02 * aim
+    la = np.concatenate([[-np.pi / 2], m.lat, [np.pi / 2]])
+    rate_l = np.interp(0.5 * (la[1:] + la[:-1]), rep.lat, rep.bend_lat)
+    assert (rate_l * np.diff(la)).max() <= 1.02 * aim
+    # and it is adaptive: the finest edge is several times shorter than the coarsest
+    assert np.diff(th).max() / np.diff(th).min() > 2.0
+    assert np.diff(la).max() / np.diff(la).min() > 2.0
+
+
+def test_asked_for_counts_and_even_spacing():
+    ctl = Controls()
+    m = default_mesh(ctl, n_lon=8 * 40, n_lat=80)
+    assert (m.n_lon, m.n_lat) == (320, 80)
+    even = default_mesh(ctl, spacing="even")
+    assert (even.n_lon, even.n_lat) == (S.EVEN_PER_STRIP * 8, S.EVEN_RINGS)
+    assert np.allclose(np.diff(even.theta), 2 * np.pi / even.n_lon)
+    with pytest.raises(ControlError, match="spacing"):
+        default_mesh(ctl, spacing="dense")
+    with pytest.raises(ControlError, match="multiple of strips"):
+        default_mesh(ctl, n_lon=321)
+
+
+def test_default_build_passes_the_frame_check_at_default_resolution(tmp_path):
+    # The acceptance criteria of the default build, through the CLI as a pipeline runs it:
+    # closed oriented sphere mesh in every frame, no face below 0.1 % of its first area,
+    # neighbouring faces under 30 degrees, no vertex moving more than one local edge length
+    # per frame, the last frame the unit sphere with the first frame's volume negated.
+    out = tmp_path / "ev.npz"
+    assert main(["build", "--out", str(out), "--quiet"]) == 0
+    with np.load(out, allow_pickle=False) as z:
+        assert z["positions"].shape[0] == DEFAULT_FRAMES
+    report = tmp_path / "report.json"
+    args = ["check", str(out), "--no-intersections", "--quiet", "--json", str(report)]
+    args += ["--area-warn", "0.01", "--area-fail", "0.001"]
+    args += ["--crease-warn", "25", "--crease-fail", "30"]
+    args += ["--jump-warn", "0.9", "--jump-fail", "1.0"]
+    assert main(args) == 0
+    rep = json.loads(report.read_text())
+    assert rep["verdict"] != "fail" and rep["everted"]
+    frames = rep["frames"]
+    assert len(frames) == DEFAULT_FRAMES
+    assert max(f["max_crease_deg"] for f in frames) < 30.0
+    assert max(f["max_step"] for f in frames) <= 1.0
+    assert min(f["min_area_ratio"] for f in frames) > 0.001
+    # Hopf: the Gauss map of an immersed closed oriented surface has degree chi / 2 = 1
+    # (H. Hopf, "Uber die Curvatura integra geschlossener Hyperflachen", 1926)
+    assert all(abs(f["degree"] - 1.0) < 0.01 for f in frames)
+    assert rep["eversion"]["volume_ratio"] == pytest.approx(-1.0, abs=1e-6)
+    assert rep["eversion"]["last_deviation"] < 1e-6
