@@ -178,7 +178,10 @@ def test_undo_restores_the_state_before_a_rebuild():
 @pytest.mark.parametrize(
     "change, controls",
     [
-        ({"ripple_start": 0.5}, {"timing": {**Controls().timing, "ripple": (0.5, 0.16)}}),
+        (
+            {"ripple_start": 0.5},
+            {"timing": {**Controls().timing, "ripple": (0.5, Controls().timing["ripple"][1])}},
+        ),
         ({"auto_depth": False, "depth": 0.9}, {"depth": 0.9}),
     ],
 )
