@@ -152,3 +152,28 @@ def test_intersecting_pairs_are_a_subset_of_blenders_bvh_overlap(tmp_path):
     theirs = {tuple(sorted(x)) for x in tree.overlap(tree)}
     ours = {tuple(x) for x in np.sort(res.segment_faces, axis=1).tolist()}
     assert ours and ours <= theirs
+
+
+def test_triple_points_closer_than_an_edge_length_stay_apart():
+    # Three unit spheres whose centres' circumradius is rc share two points at heights
+    # +-sqrt(1 - rc^2) (elementary geometry). With rc near 1 the two triple points are
+    # 0.06 apart, about 1.3 edge lengths of this mesh: still two points, not one.
+    import turnabout.check.intersections as inter
+
+    p, f = surfaces.round_sphere(40)
+    height = 0.03
+    rc = np.sqrt(1 - height**2)
+    ang = np.array([0.0, 2 * np.pi / 3, 4 * np.pi / 3])
+    centres = np.stack([rc * np.cos(ang), rc * np.sin(ang), np.zeros(3)], axis=1)
+    turns = [np.eye(3), _turn(0.4, 0.9), _turn(1.1, 0.3)]
+    pos = np.vstack([p @ t.T + c for t, c in zip(turns, centres, strict=True)])
+    faces = np.vstack([f + k * len(p) for k in range(3)])
+    edge = np.linalg.norm(p[f[:, 0]] - p[f[:, 1]], axis=1).mean()
+    assert edge < 2 * height < 3 * edge
+    res = self_intersections(pos, MeshTopology(faces, len(pos)))
+    assert res.triple_point_count == 2
+    # one below and one above the centres' plane (the inscribed mesh shifts them: with the
+    # circles meeting at a shallow angle, a chordal error e moves them by about e / height)
+    low, high = np.sort(res.triple_points[:, 2])
+    assert -2 * height < low < 0 < high < 2 * height
+    assert inter.TRIPLE_MERGE < 1.0
