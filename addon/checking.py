@@ -169,7 +169,7 @@ def read_frames(context, ob, start: int, end: int):
     return positions, faces
 
 
-def _run_checker(positions, faces, intersections, state):
+def _run_checker(positions, faces, intersections, state, workers=1):
     """Thread body: run the core checker, recording progress and the result in ``state``."""
     from turnabout.check import Thresholds, check_animation
     from turnabout.progress import Cancelled
@@ -186,6 +186,7 @@ def _run_checker(positions, faces, intersections, state):
             thresholds=Thresholds(),
             progress=progress,
             intersections=intersections,
+            workers=workers,
         )
     except BaseException as exc:  # handed back to the generator
         state["error"] = exc
@@ -214,10 +215,13 @@ def check_steps(
     folder: str | None,
     intersections: bool = True,
     stem: str | None = None,
+    workers: int = 1,
 ):
     """The whole check as a generator of (stage, done, total); returns a CheckOutcome.
 
-    ``folder`` None writes no report files. Nothing in the scene changes here.
+    ``folder`` None writes no report files. Nothing in the scene changes here. ``workers`` > 1
+    judges frames in that many forked processes (headless runs only: a forked copy of an
+    interactive Blender is not something to rely on).
     """
     validate_object(ob)
     if folder is not None:
@@ -233,7 +237,9 @@ def check_steps(
 
     state = {"cancel": threading.Event(), "done": 0, "total": 1}
     worker = threading.Thread(
-        target=_run_checker, args=(positions, faces, intersections, state), daemon=True
+        target=_run_checker,
+        args=(positions, faces, intersections, state, workers if bpy.app.background else 1),
+        daemon=True,
     )
     worker.start()
     try:

@@ -340,7 +340,14 @@ def run_demo(args) -> int:
                 "writing": 4 * args.frames,
             }
             steps = checking.check_steps(
-                bpy.context, ob, scene.frame_start, scene.frame_end, out_dir, True, stem="eversion"
+                bpy.context,
+                ob,
+                scene.frame_start,
+                scene.frame_end,
+                out_dir,
+                True,
+                stem="eversion",
+                workers=max(1, min(2, os.cpu_count() or 1)),
             )
             outcome = checking.run_to_completion(
                 steps,
