@@ -107,8 +107,9 @@ def evaluate(
     """Vertex positions at each time, (len(times), V, 3) float64 (no regularity check)."""
     times = _check_times(times)
     out = np.empty((times.size, mesh.n_vertices, 3))
+    frame = construction.FrameEvaluator(controls, mesh)
     for k, t in enumerate(times):
-        out[k] = construction.positions_at(controls, float(t), mesh)
+        frame(float(t), out[k])
         progress(k + 1, times.size)
     return out
 
@@ -133,7 +134,8 @@ def build(
         require_regular(controls)
     times = np.linspace(0.0, 1.0, int(frames))
     pos = np.empty((times.size, mesh.n_vertices, 3), dtype=np.float32)
+    frame = construction.FrameEvaluator(controls, mesh)
     for k, t in enumerate(times):
-        pos[k] = construction.positions_at(controls, float(t), mesh)
+        frame(float(t), pos[k])
         progress(k + 1, times.size)
     return Eversion(controls, mesh, pos, mesh.triangles(), mesh.uv(), times)

@@ -340,14 +340,48 @@ def jacobian(controls: Controls, t: float, theta, lat):
     return F, F_theta, F_lat
 
 
+class FrameEvaluator:
+    """Vertex positions of one mesh at any time, with the longitude factors computed once.
+
+    Per frame only the latitude functions (guide, wave frame, depth) are evaluated; the
+    grid is then filled component by component straight into the caller's array:
+
+        P = g + d sin(n theta) side + d b(theta) axis,   F = R(theta) P
+    """
+
+    def __init__(self, controls: Controls, mesh: SphereMesh):
+        self.controls = controls
+        self.mesh = mesh
+        n = controls.strips
+        th = np.asarray(mesh.theta, dtype=float)
+        self._a = np.sin(n * th)
+        self._b = -0.5 * WAVE_ASPECT * np.sin(2.0 * n * th)
+        self._c = np.cos(th)
+        self._s = np.sin(th)
+        self._lat = np.asarray(mesh.lat, dtype=float)
+
+    def __call__(self, t: float, out: np.ndarray | None = None) -> np.ndarray:
+        """Positions at time t into ``out`` ((V, 3), any float dtype; float64 if None)."""
+        m = self.mesh
+        if out is None:
+            out = np.empty((m.n_vertices, 3))
+        state = stage_state(self.controls, t)
+        g, axis, side, d = wave_frame(self._lat, state, self.controls.wave_depth)
+        ds = d[:, None] * side
+        da = d[:, None] * axis
+        a, b = self._a[None, :], self._b[None, :]
+        px = g[:, 0:1] + ds[:, 0:1] * a + da[:, 0:1] * b
+        py = g[:, 1:2] + ds[:, 1:2] * a + da[:, 1:2] * b
+        grid = out[1:-1].reshape(m.n_lat, m.n_lon, 3)
+        grid[..., 0] = self._c * px - self._s * py
+        grid[..., 1] = self._s * px + self._c * py
+        grid[..., 2] = g[:, 2:3] + ds[:, 2:3] * a + da[:, 2:3] * b
+        poles, _ = guide_and_tangent(np.array([-np.pi / 2, np.pi / 2]), state)
+        out[0] = (0.0, 0.0, poles[0, 2])  # on the axis (the closed form puts them there
+        out[-1] = (0.0, 0.0, poles[1, 2])  # to rounding)
+        return out
+
+
 def positions_at(controls: Controls, t: float, mesh: SphereMesh) -> np.ndarray:
     """Vertex positions of ``mesh`` at time t, (V, 3) float64."""
-    grid = surface(controls, t, mesh.theta, mesh.lat)  # (n_lat, n_lon, 3)
-    state = stage_state(controls, t)
-    poles, _ = guide_and_tangent(np.array([-np.pi / 2, np.pi / 2]), state)
-    poles[:, :2] = 0.0  # on the axis (the closed form puts them there to rounding)
-    out = np.empty((mesh.n_vertices, 3))
-    out[0] = poles[0]
-    out[1:-1] = grid.reshape(-1, 3)
-    out[-1] = poles[1]
-    return out
+    return FrameEvaluator(controls, mesh)(t)
