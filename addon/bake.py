@@ -70,9 +70,9 @@ def key_offsets_for(frames: int, key_step: int) -> np.ndarray:
 
 def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode="SHAPE_KEYS"):
     """Check the frame layout and pick the mesh; raises BakeError naming the bad value."""
-    from turnabout.eversion import DEFAULT_FRAMES, default_mesh
+    from turnabout.eversion import default_frames, default_mesh
 
-    frames = DEFAULT_FRAMES if frames is None else frames
+    frames = default_frames(controls.strips) if frames is None else frames
     if isinstance(frames, bool) or int(frames) != frames or frames < 2:
         raise BakeError(f"frames: must be an integer of at least 2, got {frames!r}")
     if isinstance(key_step, bool) or int(key_step) != key_step or key_step < 1:

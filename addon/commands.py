@@ -79,8 +79,9 @@ def _add_build_options(p: argparse.ArgumentParser) -> None:
     g.add_argument(
         "--frames",
         type=int,
-        default=DEFAULT_FRAMES,
-        help=f"length of the motion in frames (>= 2; default {DEFAULT_FRAMES})",
+        default=None,
+        help=f"length of the motion in frames (>= 2; default {DEFAULT_FRAMES} for 8 strips, "
+        "more for more strips: see turnabout build --help)",
     )
     g.add_argument("--start", type=int, default=1, help="scene frame where the motion starts")
     g.add_argument("--key-step", type=int, default=1, help="store a shape every N frames (>= 1)")

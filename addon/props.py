@@ -107,8 +107,8 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     # --- frames and sampling
     frames: IntProperty(
         name="Frames",
-        description="Length of the motion in frames (2 or more; the default, 20 s at 24 fps, "
-        "keeps every vertex within one edge length per frame)",
+        description="Length of the motion in frames (2 or more). 480 (20 s at 24 fps) keeps "
+        "every vertex of 8 strips within one edge length per frame; 16 strips need 672",
         default=DEFAULT_FRAMES,
         min=2,
         soft_max=2000,

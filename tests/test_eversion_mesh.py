@@ -98,3 +98,20 @@ def test_default_build_passes_the_frame_check_at_default_resolution(tmp_path):
     assert all(abs(f["degree"] - 1.0) < 0.01 for f in frames)
     assert rep["eversion"]["volume_ratio"] == pytest.approx(-1.0, abs=1e-6)
     assert rep["eversion"]["last_deviation"] < 1e-6
+
+
+def test_more_strips_get_enough_frames_for_gradual_motion():
+    # 12 strips: a finer default mesh, so more default frames (600); the same criteria hold
+    from turnabout.check import Thresholds, check_animation
+    from turnabout.eversion import build, default_frames
+
+    ctl = Controls(strips=12)
+    assert default_frames(12) > default_frames(8) == DEFAULT_FRAMES
+    ev = build(ctl)
+    assert ev.positions.shape[0] == default_frames(12)
+    th = Thresholds(area_ratio_warn=0.01, area_ratio_fail=0.001, crease_warn_deg=25.0,
+                    crease_fail_deg=30.0, step_warn=0.9, step_fail=1.0)  # fmt: skip
+    rep = check_animation(ev.positions, ev.faces, th, intersections=False)
+    assert rep.everted and not rep.failing_frames()
+    assert max(f.max_step for f in rep.frames) <= 1.0
+    assert max(f.max_crease_deg for f in rep.frames) < 30.0

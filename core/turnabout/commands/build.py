@@ -13,6 +13,7 @@ from ..eversion import (
     ControlError,
     Controls,
     build,
+    default_frames,
     default_mesh,
 )
 from ..eversion.controls import MAX_STRIPS, MIN_STRIPS, depth_range
@@ -68,8 +69,10 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     p.add_argument(
         "--frames",
         type=int,
-        default=DEFAULT_FRAMES,
-        help=f"number of frames, >= 2 (default {DEFAULT_FRAMES}: 20 s at 24 fps)",
+        default=None,
+        help=f"number of frames, >= 2 (default {DEFAULT_FRAMES} for 8 strips, 20 s at 24 fps; "
+        f"more strips need more, up to {default_frames(16)} for 16, to keep every vertex "
+        "within one edge length per frame)",
     )
     p.add_argument(
         "--spacing",
@@ -152,8 +155,9 @@ def run(args) -> int:
             else "obj"
         )
         out = args.out or Path("eversion.npz")
-        with ProgressBar("building", args.frames, enabled=not args.quiet) as bar:
-            ev = build(controls, frames=args.frames, mesh=mesh, progress=bar)
+        frames = default_frames(controls.strips) if args.frames is None else args.frames
+        with ProgressBar("building", max(int(frames), 1), enabled=not args.quiet) as bar:
+            ev = build(controls, frames=frames, mesh=mesh, progress=bar)
     except ControlError as exc:
         print(f"turnabout build: {exc}", file=sys.stderr)
         return 2

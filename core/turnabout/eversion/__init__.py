@@ -18,6 +18,7 @@ from .controls import (
     ControlError,
     Controls,
     default_depth,
+    default_frames,
     depth_range,
 )
 from .regularity import RegularityError, RegularityReport, quick_scan, scan
@@ -33,6 +34,7 @@ __all__ = [
     "Eversion",
     "build",
     "default_depth",
+    "default_frames",
     "default_mesh",
     "depth_range",
     "evaluate",

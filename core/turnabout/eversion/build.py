@@ -9,7 +9,7 @@ import numpy as np
 from ..mesh import SphereMesh
 from ..progress import ProgressFn, no_progress
 from . import construction
-from .controls import DEFAULT_FRAMES, ControlError, Controls
+from .controls import ControlError, Controls, default_frames
 from .regularity import require_regular
 from .spacing import mesh_for
 
@@ -116,16 +116,21 @@ def evaluate(
 
 def build(
     controls: Controls,
-    frames: int = DEFAULT_FRAMES,
+    frames: int | None = None,
     mesh: SphereMesh | None = None,
     progress: ProgressFn = no_progress,
     check: bool = True,
 ) -> Eversion:
     """Bake ``frames`` evenly spaced frames from t = 0 to t = 1.
 
+    ``frames`` None takes :func:`~turnabout.eversion.controls.default_frames` for the strip
+    count (480 for 8 strips): enough that no vertex of the default mesh moves more than one
+    local edge length per frame with the default stage windows.
+
     Runs the fast regularity check first (cached per controls) and raises
     :class:`~turnabout.eversion.regularity.RegularityError` for controls that fail it.
     """
+    frames = default_frames(controls.strips) if frames is None else frames
     if isinstance(frames, bool) or not isinstance(frames, (int, np.integer)) or frames < 2:
         raise ControlError("frames", f"must be an integer >= 2, got {frames!r}")
     mesh = default_mesh(controls) if mesh is None else mesh
