@@ -17,6 +17,7 @@ from ..eversion import (
     default_mesh,
 )
 from ..eversion.controls import MAX_STRIPS, MIN_STRIPS, depth_range
+from ..eversion.regularity import QUICK_GRID
 from ..eversion.spacing import CREASE_AIM_DEG, EVEN_PER_STRIP, EVEN_RINGS, SPACINGS
 from ..progress import Cancelled, ProgressBar
 
@@ -146,6 +147,12 @@ def run(args) -> int:
                 rep = scan(controls, n_theta=nt, n_lat=nl, n_times=ns, progress=bar)
             print(rep.summary())
             return 0
+        from ..eversion.regularity import quick_report, scan_times
+
+        # the fast scan gates the build and places the default mesh; run it once, visibly
+        n_scan = scan_times(controls, QUICK_GRID[2]).size
+        with ProgressBar("regularity check", n_scan, enabled=not args.quiet) as bar:
+            quick_report(controls, progress=bar)
         mesh = default_mesh(controls, args.lon, args.lat, spacing=args.spacing)
         fmt = args.format or (
             "npz"
