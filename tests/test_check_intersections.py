@@ -177,3 +177,34 @@ def test_triple_points_closer_than_an_edge_length_stay_apart():
     low, high = np.sort(res.triple_points[:, 2])
     assert -2 * height < low < 0 < high < 2 * height
     assert inter.TRIPLE_MERGE < 1.0
+
+
+def test_sheets_meeting_from_detection_counts():
+    # k sheets through a point: each of the C(k, 2) double curves crosses the other k - 2
+    # sheets there, so k (k - 1) (k - 2) / 2 detections (elementary counting)
+    from turnabout.check.animation import sheets_meeting
+
+    assert list(sheets_meeting(np.array([3, 12, 30, 168, 1, 2, 6]))) == [3, 4, 5, 8, 0, 0, 0]
+
+
+def test_four_symmetric_spheres_meet_in_fourfold_points():
+    # Four unit spheres centred at distance 1 from the origin, each the previous turned by a
+    # quarter turn about z (exact in floating point), all pass through the origin and through
+    # the reflection of the origin in the centres' plane z = h: two points where four sheets
+    # meet, each worth C(4, 3) = 4 triple points for Banchoff's parity (elementary geometry).
+    p, f = surfaces.round_sphere(24)
+    p = p @ _turn(0.4, 0.9).T
+    s, h = 0.8, 0.6
+    quarter = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
+    sheet = p + np.array([s, 0.0, h])
+    parts = [sheet]
+    for _ in range(3):
+        parts.append(parts[-1] @ quarter.T)
+    pos = np.vstack(parts)
+    faces = np.vstack([f + k * len(p) for k in range(4)])
+    rep = check_animation(pos, faces)
+    fr = rep.frames[0]
+    assert fr.triple_point_count == 2
+    assert np.allclose(np.sort(fr.triple_points[:, 2]), [0.0, 2 * h], atol=0.01)  # mesh error
+    assert any("more than three sheets meet (up to 4)" in r for r in fr.reasons)
+    assert not any("Banchoff" in r for r in fr.reasons)

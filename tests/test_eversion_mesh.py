@@ -115,3 +115,22 @@ def test_more_strips_get_enough_frames_for_gradual_motion():
     assert rep.everted and not rep.failing_frames()
     assert max(f.max_step for f in rep.frames) <= 1.0
     assert max(f.max_crease_deg for f in rep.frames) < 30.0
+
+
+def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():
+    # Points on the symmetry axis lie on all n rotated copies of a sheet: n-fold points.
+    # Counted as C(n, 3) triple points each, every frame has a count congruent to
+    # chi = 2 mod 2 (T. Banchoff, "Triple points and surgery of immersed surfaces", 1974).
+    from turnabout.check import check_animation
+    from turnabout.eversion import evaluate
+
+    ctl = Controls()
+    mesh = default_mesh(ctl)
+    times = np.array([250, 296, 330]) / (DEFAULT_FRAMES - 1)
+    rep = check_animation(evaluate(ctl, times, mesh), mesh.triangles())
+    for fr in rep.frames:
+        assert fr.triple_point_count > 100
+        assert not any("Banchoff" in r for r in fr.reasons), fr.reasons
+    assert any(
+        "more than three sheets meet (up to 8)" in r for fr in rep.frames for r in fr.reasons
+    )

@@ -130,12 +130,23 @@ def judge_frame(
                 f"{degenerate} face pair(s) touch without crossing cleanly: the frame is not "
                 "generic there"
             )
-        if np.any(inter.triple_detections != 3):
+        sheets = sheets_meeting(inter.triple_detections)
+        if np.any(sheets == 0):
             warns.append("a triple point was not seen by all three of its double curves")
-        generic = not singular and degenerate == 0
-        if closed_manifold and generic and (triple_count - chi) % 2 != 0:
+        multiple = sheets[sheets > 3]
+        if multiple.size:
             warns.append(
-                f"{triple_count} triple point(s), but a generic immersed closed surface with "
+                f"{multiple.size} point(s) where more than three sheets meet (up to "
+                f"{int(multiple.max())}): not generic, as on the axis of a symmetric surface"
+            )
+        # a point where k sheets meet splits into C(k, 3) triple points under a generic
+        # perturbation: that is the count Banchoff's parity applies to
+        k = np.where(sheets >= 3, sheets, 3).astype(np.int64)
+        generic_count = int((k * (k - 1) * (k - 2) // 6).sum())
+        generic = not singular and degenerate == 0
+        if closed_manifold and generic and (generic_count - chi) % 2 != 0:
+            warns.append(
+                f"{generic_count} triple point(s), but a generic immersed closed surface with "
                 f"chi = {chi} has a number congruent to chi mod 2 (Banchoff 1974): the frame "
                 "is not generic or the mesh is defective"
             )
@@ -254,6 +265,22 @@ def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn):
         frames.extend(reps)
         inters.update(its)
     return frames, inters
+
+
+def sheets_meeting(detections: np.ndarray) -> np.ndarray:
+    """Sheets through each detected point from its detection count, 0 where it does not fit.
+
+    Each pair of the k sheets through a point has a double curve that crosses each of the
+    other k - 2 sheets there, so the point is detected k (k - 1) (k - 2) / 2 times: 3 for a
+    triple point, 12 for four sheets, 168 for eight.
+    """
+    d = np.asarray(detections, np.int64)
+    k = np.round(np.cbrt(2.0 * d)).astype(np.int64) + 1  # k^3 ~ 2 d, plus a margin
+    out = np.zeros(d.shape, np.int64)
+    for trial in (k - 2, k - 1, k, k + 1):
+        hit = (trial >= 3) & (trial * (trial - 1) * (trial - 2) // 2 == d)
+        out = np.where(hit & (out == 0), trial, out)
+    return out
 
 
 def check_animation(
