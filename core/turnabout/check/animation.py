@@ -141,8 +141,8 @@ def judge_frame(
             )
         # a point where k sheets meet splits into C(k, 3) triple points under a generic
         # perturbation: that is the count Banchoff's parity applies to
-        k = np.where(sheets >= 3, sheets, 3).astype(np.int64)
-        generic_count = int((k * (k - 1) * (k - 2) // 6).sum())
+        ks = np.where(sheets >= 3, sheets, 3).astype(np.int64)
+        generic_count = int((ks * (ks - 1) * (ks - 2) // 6).sum())
         generic = not singular and degenerate == 0
         if closed_manifold and generic and (generic_count - chi) % 2 != 0:
             warns.append(
