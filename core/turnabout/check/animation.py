@@ -130,9 +130,16 @@ def judge_frame(
                 f"{degenerate} face pair(s) touch without crossing cleanly: the frame is not "
                 "generic there"
             )
-        sheets = sheets_meeting(inter.triple_detections)
-        if np.any(sheets == 0):
+        detections = np.asarray(inter.triple_detections, np.int64)
+        sheets = sheets_meeting(detections)
+        if np.any(detections % 3 != 0):
             warns.append("a triple point was not seen by all three of its double curves")
+        on_edge = (sheets == 0) & (detections % 3 == 0)
+        if on_edge.any():
+            warns.append(
+                f"{int(on_edge.sum())} triple point(s) on a mesh edge or vertex (seen "
+                f"{int(detections[on_edge].max())} times): the frame is not generic there"
+            )
         multiple = sheets[sheets > 3]
         if multiple.size:
             warns.append(
