@@ -186,3 +186,20 @@ def test_coarse_scan_is_regular_for_every_documented_strip_count(strips):
     rep = scan(Controls(strips=strips), n_theta=12 * strips, n_lat=61, n_times=60, curvature=False)
     assert rep.min_ratio >= 0.05
     assert rep.pole_min_ratio > 0.99
+
+
+@pytest.mark.parametrize("strips", [8, 11])
+def test_every_frame_has_the_half_turn_that_swaps_the_caps(strips):
+    # Besides the n-fold turn, every frame is fixed by the half-turn about a horizontal axis
+    # at angle pi / (2 n): the caps' opposite turns and the odd chi make the motion
+    # symmetric under (theta, lat) -> (pi / n - theta, -lat). The vertex set maps to itself.
+    from scipy.spatial import cKDTree
+
+    ctl = Controls(strips=strips)
+    m = uniform_sphere_mesh(16 * strips, 63)
+    a = np.pi / strips
+    half = np.array([[np.cos(a), np.sin(a), 0], [np.sin(a), -np.cos(a), 0], [0, 0, -1]])
+    for t in (0.2, 0.45, 0.6, 0.8):
+        P = evaluate(ctl, [t], m)[0]
+        d, _ = cKDTree(P).query(P @ half.T)
+        assert d.max() < 1e-9
