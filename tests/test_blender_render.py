@@ -130,7 +130,7 @@ def test_run_headless_script_writes_a_scene(tmp_path):
 @pytest.mark.usefixtures("blank")
 def test_strip_tint_marks_every_other_strip_and_both_sides_keep_their_colours():
     s = bpy.context.scene.turnabout
-    s.frames, s.mesh_lon, s.mesh_lat = 4, 64, 16
+    s.frames, s.mesh_lon, s.mesh_lat = 4, 480, 16
     s.strips = 8
     s.colour_strips = True
     bpy.ops.turnabout.add_eversion()
@@ -138,9 +138,16 @@ def test_strip_tint_marks_every_other_strip_and_both_sides_keep_their_colours():
     me = ob.data
     guide = np.empty(len(me.polygons), np.float32)
     me.attributes["turnabout_guide"].data.foreach_get("value", guide)
-    ring = guide[:64]  # the first ring of quads, in longitude order
+    ring = guide[:480]  # the first ring of quads, in longitude order
     changes = int(np.sum(ring != np.roll(ring, 1)))
     assert changes == 2 * 8  # 8 guide strips alternating with 8 corrugated strips
+    # the bands follow longitude, not sample count (the default mesh spaces them unevenly):
+    # each band is an eighth of the circle, read from the face centres of the round sphere
+    centre = np.empty(len(me.polygons) * 3, np.float32)
+    me.polygons.foreach_get("center", centre)
+    xy = centre.reshape(-1, 3)[:480, :2].astype(float)
+    band = np.floor(np.mod(np.arctan2(xy[:, 1], xy[:, 0]), 2 * np.pi) / (np.pi / 8))
+    assert np.array_equal(ring.astype(bool), band.astype(int) % 2 == 0)
     nodes = me.materials[0].node_tree.nodes
     assert nodes["Guide strips"].attribute_name == "turnabout_guide"
     assert tuple(nodes["Outer side"].outputs[0].default_value) == pytest.approx(
