@@ -89,15 +89,16 @@ def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode=
     )
 
 
-def mesh_from_settings(controls, n_lon: int, n_lat: int):
-    """The sphere mesh for the given resolution; 0 keeps the construction's default."""
+def mesh_from_settings(controls, n_lon: int, n_lat: int, spacing: str = "bend"):
+    """The sphere mesh for the given resolution and spacing ("bend" or "even"); 0 keeps the
+    spacing's default count."""
     from turnabout.eversion import default_mesh
 
     if (n_lon and n_lon < 3) or n_lat < 0:
         raise BakeError(
             f"mesh resolution: needs at least 3 longitude samples, got {n_lon} x {n_lat}"
         )
-    return default_mesh(controls, n_lon=n_lon or None, n_lat=n_lat or None)
+    return default_mesh(controls, n_lon=n_lon or None, n_lat=n_lat or None, spacing=spacing)
 
 
 # Point-cache bakes evaluate this many frames at a time.
@@ -391,7 +392,7 @@ def _plan_from_scene(scene):
 
     s = scene.turnabout
     controls = controls_from_settings(s)
-    mesh = mesh_from_settings(controls, s.mesh_lon, s.mesh_lat)
+    mesh = mesh_from_settings(controls, s.mesh_lon, s.mesh_lat, s.mesh_spacing.lower())
     return plan_bake(controls, s.frames, s.frame_start, s.key_step, mesh, s.bake_mode)
 
 

@@ -90,7 +90,13 @@ def _add_build_options(p: argparse.ArgumentParser) -> None:
         type=_pair,
         default=None,
         metavar="AROUNDxRINGS",
-        help="sphere resolution, e.g. 256x127 (default: the construction's own)",
+        help="sphere resolution, e.g. 256x127 (default: the spacing's own)",
+    )
+    g.add_argument(
+        "--spacing",
+        choices=("bend", "even"),
+        default="bend",
+        help="where the mesh puts its vertices: where the surface bends (default) or an even grid",
     )
     g.add_argument(
         "--store",
@@ -212,14 +218,11 @@ def _controls(args):
     return Controls(strips=args.strips, depth=args.depth, timing=timing)
 
 
-def _mesh(controls, pair):
-    from turnabout.eversion import default_mesh
-
-    if pair is None:
-        return default_mesh(controls)
+def _mesh(controls, pair, spacing="bend"):
     from .bake import mesh_from_settings
 
-    return mesh_from_settings(controls, pair[0], pair[1])
+    n_lon, n_lat = (0, 0) if pair is None else pair
+    return mesh_from_settings(controls, n_lon, n_lat, spacing)
 
 
 def _fail(name: str, exc: Exception) -> int:
@@ -237,7 +240,7 @@ def run_scene(args) -> int:
 
     try:
         controls = _controls(args)
-        mesh = _mesh(controls, args.mesh)
+        mesh = _mesh(controls, args.mesh, args.spacing)
         out = os.path.abspath(args.output)
         if not out.lower().endswith(".blend"):
             raise headless.HeadlessError(f"output: {args.output!r} must end in .blend")

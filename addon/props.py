@@ -33,6 +33,15 @@ OUTER_COLOUR = (0.93, 0.52, 0.22, 1.0)
 INNER_COLOUR = (0.08, 0.42, 0.52, 1.0)
 GUIDE_TINT = (0.98, 0.93, 0.80, 1.0)
 
+MESH_SPACINGS = (
+    (
+        "BEND",
+        "Where it bends",
+        "More vertices where the surface bends over the motion, the same in every strip",
+    ),
+    ("EVEN", "Even grid", "Equal longitude and latitude steps (32 per strip x 127 rings)"),
+)
+
 BAKE_MODES = (
     (
         "SHAPE_KEYS",
@@ -138,6 +147,12 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         default=0,
         min=0,
         soft_max=512,
+    )
+    mesh_spacing: EnumProperty(
+        name="Spacing",
+        items=MESH_SPACINGS,
+        default="BEND",
+        description="Where the mesh puts its vertices",
     )
     bake_mode: EnumProperty(name="Store as", items=BAKE_MODES, default="SHAPE_KEYS")
     cache_dir: StringProperty(

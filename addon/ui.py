@@ -42,6 +42,7 @@ class TURNABOUT_PT_build(_SidebarPanel, bpy.types.Panel):
         row = col.row(align=True)
         row.prop(s, "mesh_lon", text="Around")
         row.prop(s, "mesh_lat", text="Rings")
+        col.prop(s, "mesh_spacing")
         col.prop(s, "bake_mode")
         if s.bake_mode == "POINT_CACHE":
             col.prop(s, "cache_dir")

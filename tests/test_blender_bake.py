@@ -216,3 +216,22 @@ def test_bake_over_the_memory_limit_is_refused_with_the_estimate():
     need_mb = 200 * (256 * 127 + 2) * 3 * 16 / 1e6
     assert f"about {need_mb:.0f} MB" in str(err.value) and "50 MB" in str(err.value)
     assert counts() == before
+
+
+@pytest.mark.usefixtures("blank")
+def test_panel_mesh_spacing_gives_the_core_meshes():
+    from turnabout.eversion import default_mesh
+
+    s = bpy.context.scene.turnabout
+    set_small_build(s, frames=2, n_lon=0, n_lat=0)
+    for spacing in ("EVEN", "BEND"):
+        s.mesh_spacing = spacing
+        bpy.ops.turnabout.add_eversion()
+        ob = bpy.context.active_object
+        core = default_mesh(Controls(), spacing=spacing.lower())
+        assert len(ob.data.vertices) == core.n_vertices
+        co = np.empty(len(ob.data.vertices) * 3, np.float32)
+        ob.data.vertices.foreach_get("co", co)
+        first_ring = co.reshape(-1, 3)[1 : 1 + core.n_lon]  # the basis is the round sphere
+        theta = np.mod(np.arctan2(first_ring[:, 1], first_ring[:, 0]), 2 * np.pi)
+        assert np.allclose(theta, core.theta, atol=1e-5)
