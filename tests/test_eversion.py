@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pytest
 from turnabout.cli import main
@@ -121,6 +123,10 @@ def test_same_inputs_give_byte_identical_npz(tmp_path):
         assert z["positions"].shape == (3, 64 * 31 + 2, 3) and z["positions"].dtype == np.float32
         assert z["faces"].dtype == np.int32 and z["faces"].shape[1] == 3
         assert z["uv"].shape == (64 * 31 + 2, 2) and z["times"].dtype == np.float64
+    # written through a temporary file, but with the permissions open() would have given
+    mask = os.umask(0o022)
+    os.umask(mask)
+    assert a.stat().st_mode & 0o777 == 0o666 & ~mask
 
 
 @pytest.mark.parametrize(

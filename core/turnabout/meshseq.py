@@ -187,8 +187,21 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     return seq
 
 
+def _file_mode() -> int:
+    """Permissions of a new file under the process umask (what open() would give)."""
+    mask = os.umask(0o022)  # reading the umask means setting it; put it straight back
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+_FILE_MODE = _file_mode()  # once, at import: os.umask is process-wide, not thread-safe
+
+
 def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder, then rename."""
+    """Write ``data`` to ``path`` through a temporary file in the same folder, then rename.
+
+    The file gets the permissions a plain ``open`` would give (mkstemp's are private).
+    """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=".part", dir=path.parent)
@@ -199,6 +212,7 @@ def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
             else:
                 for chunk in data:
                     fh.write(chunk)
+        os.chmod(tmp, _FILE_MODE)
         os.replace(tmp, path)
     except BaseException:
         try:
