@@ -113,6 +113,18 @@ def test_too_coarse_resolution_and_too_few_frames_are_refused():
         build(Controls(), frames=1, mesh=SMALL)
 
 
+def test_huge_resolutions_are_refused_before_anything_is_sampled():
+    from turnabout.eversion import default_mesh
+
+    for kw, option in (
+        ({"n_lat": 10**9}, "latitude rings"),
+        ({"n_lon": 8 * 10**8}, "longitude samples"),
+        ({"n_lon": 8000, "n_lat": 4000}, "resolution"),
+    ):
+        with pytest.raises(ControlError, match=option):
+            default_mesh(Controls(), **kw)
+
+
 def test_same_inputs_give_byte_identical_npz(tmp_path):
     a, b = tmp_path / "a.npz", tmp_path / "b.npz"
     args = ["build", "--frames", "3", "--lon", "64", "--lat", "31", "--quiet"]

@@ -44,6 +44,9 @@ def _integer(name: str, v) -> None:
 def _check_lon(controls: Controls, n_lon) -> None:
     _integer("longitude samples", n_lon)
     need = MIN_SAMPLES_PER_WAVE * controls.strips
+    top = MAX_VERTICES // MIN_LAT_RINGS
+    if n_lon > top:
+        raise ControlError("longitude samples", f"must be at most {top}, got {n_lon}")
     if n_lon < need or n_lon % controls.strips:
         raise ControlError(
             "longitude samples",
@@ -52,16 +55,19 @@ def _check_lon(controls: Controls, n_lon) -> None:
         )
 
 
-def _check_lat(n_lat) -> None:
+def _check_lat(controls: Controls, n_lat) -> None:
     _integer("latitude rings", n_lat)
     if n_lat < MIN_LAT_RINGS:
         raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
+    top = MAX_VERTICES // (MIN_SAMPLES_PER_WAVE * controls.strips)
+    if n_lat > top:
+        raise ControlError("latitude rings", f"must be at most {top}, got {n_lat}")
 
 
 def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
     """Refuse meshes too coarse for the waves or too large to hold."""
     _check_lon(controls, n_lon)
-    _check_lat(n_lat)
+    _check_lat(controls, n_lat)
     if n_lon * n_lat + 2 > MAX_VERTICES:
         raise ControlError(
             "resolution",
@@ -83,7 +89,9 @@ def default_mesh(
     if n_lon is not None:
         _check_lon(controls, n_lon)
     if n_lat is not None:
-        _check_lat(n_lat)
+        _check_lat(controls, n_lat)
+    if n_lon is not None and n_lat is not None:
+        check_resolution(controls, n_lon, n_lat)  # the product too, before any sample
     mesh = mesh_for(controls, n_lon=n_lon, n_lat=n_lat, spacing=spacing)
     check_resolution(controls, mesh.n_lon, mesh.n_lat)
     return mesh
