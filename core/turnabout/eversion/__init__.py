@@ -8,7 +8,7 @@ Public API::
     ev = build(controls)                      # Eversion of DEFAULT_FRAMES (480) frames
 """
 
-from .build import Eversion, build, check_resolution, default_mesh, evaluate
+from .build import Eversion, build, evaluate
 from .controls import (
     DEFAULT_FRAMES,
     MAX_STRIPS,
@@ -22,6 +22,8 @@ from .controls import (
     depth_range,
 )
 from .regularity import RegularityError, RegularityReport, quick_scan, scan
+from .spacing import check_resolution
+from .spacing import mesh_for as default_mesh
 
 __all__ = [
     "DEFAULT_FRAMES",

@@ -11,11 +11,7 @@ from ..progress import ProgressFn, no_progress
 from . import construction
 from .controls import ControlError, Controls, default_frames
 from .regularity import require_regular
-from .spacing import mesh_for
-
-MIN_SAMPLES_PER_WAVE = 8
-MIN_LAT_RINGS = 16
-MAX_VERTICES = 4_000_000
+from .spacing import check_resolution, mesh_for
 
 
 @dataclass(frozen=True)
@@ -34,67 +30,6 @@ class Eversion:
     faces: np.ndarray
     uv: np.ndarray
     times: np.ndarray
-
-
-def _integer(name: str, v) -> None:
-    if isinstance(v, bool) or not isinstance(v, (int, np.integer)):
-        raise ControlError(name, f"must be an integer, got {v!r}")
-
-
-def _check_lon(controls: Controls, n_lon) -> None:
-    _integer("longitude samples", n_lon)
-    need = MIN_SAMPLES_PER_WAVE * controls.strips
-    top = MAX_VERTICES // MIN_LAT_RINGS
-    if n_lon > top:
-        raise ControlError("longitude samples", f"must be at most {top}, got {n_lon}")
-    if n_lon < need or n_lon % controls.strips:
-        raise ControlError(
-            "longitude samples",
-            f"must be a multiple of strips ({controls.strips}) and at least {need} "
-            f"({MIN_SAMPLES_PER_WAVE} samples per wave), got {n_lon}",
-        )
-
-
-def _check_lat(controls: Controls, n_lat) -> None:
-    _integer("latitude rings", n_lat)
-    if n_lat < MIN_LAT_RINGS:
-        raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
-    top = MAX_VERTICES // (MIN_SAMPLES_PER_WAVE * controls.strips)
-    if n_lat > top:
-        raise ControlError("latitude rings", f"must be at most {top}, got {n_lat}")
-
-
-def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
-    """Refuse meshes too coarse for the waves or too large to hold."""
-    _check_lon(controls, n_lon)
-    _check_lat(controls, n_lat)
-    if n_lon * n_lat + 2 > MAX_VERTICES:
-        raise ControlError(
-            "resolution",
-            f"{n_lon} x {n_lat} gives {n_lon * n_lat + 2} vertices; at most {MAX_VERTICES}",
-        )
-
-
-def default_mesh(
-    controls: Controls,
-    n_lon: int | None = None,
-    n_lat: int | None = None,
-    spacing: str = "bend",
-) -> SphereMesh:
-    """The sphere mesh for these controls; see :func:`turnabout.eversion.spacing.mesh_for`.
-
-    By default the vertices sit where the surface bends, as many as keep the angle between
-    neighbouring faces near the aim (``spacing.CREASE_AIM_DEG``) in every frame.
-    """
-    if n_lon is not None:
-        _check_lon(controls, n_lon)
-    if n_lat is not None:
-        _check_lat(controls, n_lat)
-    if n_lon is not None and n_lat is not None:
-        check_resolution(controls, n_lon, n_lat)  # the product too, before any sample
-    mesh = mesh_for(controls, n_lon=n_lon, n_lat=n_lat, spacing=spacing)
-    check_resolution(controls, mesh.n_lon, mesh.n_lat)
-    return mesh
 
 
 def _check_times(times) -> np.ndarray:
@@ -141,7 +76,7 @@ def build(
     frames = default_frames(controls.strips) if frames is None else frames
     if isinstance(frames, bool) or not isinstance(frames, (int, np.integer)) or frames < 2:
         raise ControlError("frames", f"must be an integer >= 2, got {frames!r}")
-    mesh = default_mesh(controls) if mesh is None else mesh
+    mesh = mesh_for(controls) if mesh is None else mesh
     check_resolution(controls, mesh.n_lon, mesh.n_lat)
     if check:
         require_regular(controls)

@@ -133,11 +133,6 @@ def _curvature_and_rates(controls, t, theta, lat):
     return np.abs(H) + root, rate_t, rate_l
 
 
-def _max_curvature(controls, t, theta, lat):
-    """Largest |principal curvature| on the grid, (l, m)."""
-    return _curvature_and_rates(controls, t, theta, lat)[0]
-
-
 def _pole_ratio(controls, t, h=1e-4):
     """Normalised ratio at both poles in the chart (x, y) = cos(lat) (cos theta, sin theta)."""
     out = []

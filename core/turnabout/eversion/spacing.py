@@ -34,6 +34,48 @@ ROUND_RATE = 4.5  # rate floor: round parts get edges of CREASE_AIM / 4.5 (4 deg
 GRADING = 0.15  # neighbouring edges differ by at most about 15 %
 EVEN_PER_STRIP = 32
 EVEN_RINGS = 127
+MIN_SAMPLES_PER_WAVE = 8
+MIN_LAT_RINGS = 16
+MAX_VERTICES = 4_000_000
+
+
+def _integer(name: str, v) -> None:
+    if isinstance(v, bool) or not isinstance(v, (int, np.integer)):
+        raise ControlError(name, f"must be an integer, got {v!r}")
+
+
+def _check_lon(controls: Controls, n_lon) -> None:
+    _integer("longitude samples", n_lon)
+    need = MIN_SAMPLES_PER_WAVE * controls.strips
+    top = MAX_VERTICES // MIN_LAT_RINGS
+    if n_lon > top:
+        raise ControlError("longitude samples", f"must be at most {top}, got {n_lon}")
+    if n_lon < need or n_lon % controls.strips:
+        raise ControlError(
+            "longitude samples",
+            f"must be a multiple of strips ({controls.strips}) and at least {need} "
+            f"({MIN_SAMPLES_PER_WAVE} samples per wave), got {n_lon}",
+        )
+
+
+def _check_lat(controls: Controls, n_lat) -> None:
+    _integer("latitude rings", n_lat)
+    if n_lat < MIN_LAT_RINGS:
+        raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
+    top = MAX_VERTICES // (MIN_SAMPLES_PER_WAVE * controls.strips)
+    if n_lat > top:
+        raise ControlError("latitude rings", f"must be at most {top}, got {n_lat}")
+
+
+def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
+    """Refuse meshes too coarse for the waves or too large to hold."""
+    _check_lon(controls, n_lon)
+    _check_lat(controls, n_lat)
+    if n_lon * n_lat + 2 > MAX_VERTICES:
+        raise ControlError(
+            "resolution",
+            f"{n_lon} x {n_lat} gives {n_lon * n_lat + 2} vertices; at most {MAX_VERTICES}",
+        )
 
 
 def _limit_growth(h: np.ndarray, x: np.ndarray, slope: float) -> np.ndarray:
@@ -98,22 +140,30 @@ def mesh_for(
     n_lat: int | None = None,
     spacing: str = "bend",
 ) -> SphereMesh:
-    """The eversion's sphere mesh.
+    """The eversion's sphere mesh, its counts checked before anything is sampled.
 
     n_lon : longitude samples (a multiple of strips) or None for the default;
     n_lat : latitude rings between the poles, or None for the default;
-    spacing : "bend" (default: vertices where the surface bends, from the fast scan, which
-        it runs if it has not run yet, refusing controls that fail it) or "even" (32 per
-        strip x 127 rings by default).
+    spacing : "bend" (default: vertices where the surface bends, as many as keep the angle
+        between neighbouring faces near CREASE_AIM_DEG in every frame, from the fast scan,
+        which it runs if it has not run yet, refusing controls that fail it) or "even"
+        (32 per strip x 127 rings by default).
     """
     if spacing not in SPACINGS:
         raise ControlError("spacing", f"must be one of {', '.join(SPACINGS)}, got {spacing!r}")
+    if n_lon is not None and n_lat is not None:
+        check_resolution(controls, n_lon, n_lat)
+    elif n_lon is not None:
+        _check_lon(controls, n_lon)
+    elif n_lat is not None:
+        _check_lat(controls, n_lat)
     n = controls.strips
     if spacing == "even":
-        return uniform_sphere_mesh(n_lon or EVEN_PER_STRIP * n, n_lat or EVEN_RINGS)
-    if n_lon and n_lon % n:
-        raise ControlError("longitude samples", f"must be a multiple of strips ({n}), got {n_lon}")
-    rep = require_regular(controls)
-    one = theta_samples(rep, n, n_lon // n if n_lon else None)
-    theta = (one[None, :] + (2 * np.pi / n) * np.arange(n)[:, None]).ravel()
-    return SphereMesh(theta=theta, lat=lat_samples(rep, n_lat))
+        mesh = uniform_sphere_mesh(n_lon or EVEN_PER_STRIP * n, n_lat or EVEN_RINGS)
+    else:
+        rep = require_regular(controls)
+        one = theta_samples(rep, n, n_lon // n if n_lon else None)
+        theta = (one[None, :] + (2 * np.pi / n) * np.arange(n)[:, None]).ravel()
+        mesh = SphereMesh(theta=theta, lat=lat_samples(rep, n_lat))
+    check_resolution(controls, mesh.n_lon, mesh.n_lat)  # the default counts too
+    return mesh
