@@ -40,7 +40,7 @@ class ControlError(ValueError):
 
 def _default_timing() -> dict[str, tuple[float, float]]:
     # Chosen so that no vertex of the default mesh moves more than about 0.95 of its local
-    # edge length per frame at DEFAULT_FRAMES (docs/eversion.md, "Timing"): the turn is
+    # edge length per frame at DEFAULT_FRAMES (docs/eversion.md, section 8): the turn is
     # slowest where the bend-adaptive mesh is finest and the motion fastest. The waves are
     # at full depth before the turn passes 0.005 and until it passes 0.995.
     return {
@@ -50,10 +50,6 @@ def _default_timing() -> dict[str, tuple[float, float]]:
         "tuck": (0.586, 0.97),
         "calm": (0.92, 1.0),
     }
-
-
-# Frames of a default build of the default 8 strips: 20 s at 24 frames per second.
-DEFAULT_FRAMES = 480
 
 
 MIN_STRIPS = 8
@@ -119,6 +115,10 @@ def default_frames(strips: int) -> int:
         return _FRAMES[strips]
     top = max(_FRAMES)
     return _FRAMES[top] + (strips - top) * (_FRAMES[top] - _FRAMES[top - 1])
+
+
+# Frames of a default build of the default 8 strips: 20 s at 24 frames per second.
+DEFAULT_FRAMES = default_frames(MIN_STRIPS)
 
 
 def depth_range(strips: int) -> tuple[float, float]:
