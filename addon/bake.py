@@ -220,26 +220,21 @@ def write_pc2(path: str, chunks, n_points: int, n_samples: int, start: float = 0
     float32 start, float32 sampling rate, int32 samples; then float32 xyz per point per
     sample. Written to a temporary file in the same folder, then renamed.
     """
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(suffix=".pc2.part", dir=folder)
-    written = 0
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(PC2_HEADER)
-            fh.write(np.array([1, n_points], "<i4").tobytes())
-            fh.write(np.array([start, 1.0], "<f4").tobytes())
-            fh.write(np.array([n_samples], "<i4").tobytes())
-            for block in chunks:
-                fh.write(np.ascontiguousarray(block, "<f4").tobytes())
-                written += len(block)
-        if written != n_samples:
+    from turnabout.meshseq import atomic_write_bytes
+
+    def blocks():
+        yield PC2_HEADER
+        yield np.array([1, n_points], "<i4").tobytes()
+        yield np.array([start, 1.0], "<f4").tobytes()
+        yield np.array([n_samples], "<i4").tobytes()
+        written = 0
+        for block in chunks:
+            yield np.ascontiguousarray(block, "<f4").tobytes()
+            written += len(block)
+        if written != n_samples:  # raised inside the write: the temporary file goes
             raise BakeError(f"point cache: wrote {written} samples, expected {n_samples}")
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+
+    atomic_write_bytes(path, blocks())
 
 
 def cache_path_for(ob_name: str, cache_dir: str) -> str:

@@ -193,18 +193,10 @@ def _run_checker(positions, faces, intersections, state, workers=1):
 
 
 def _atomic_write(path: str, writer) -> None:
-    folder = os.path.dirname(path)
-    suffix = os.path.splitext(path)[1]
-    fd, tmp = tempfile.mkstemp(dir=folder, suffix=".part" + suffix)
-    os.close(fd)
-    try:
-        writer(tmp)
-        os.chmod(tmp, 0o644)  # mkstemp makes files private; reports are for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+    """Write a report through a temporary file that keeps its extension (for the plotter)."""
+    from turnabout.meshseq import atomic_write
+
+    atomic_write(path, writer, suffix=".part" + os.path.splitext(path)[1])
 
 
 def check_steps(

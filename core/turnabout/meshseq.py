@@ -22,7 +22,7 @@ import os
 import re
 import tempfile
 import zipfile
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -197,21 +197,19 @@ def _file_mode() -> int:
 _FILE_MODE = _file_mode()  # once, at import: os.umask is process-wide, not thread-safe
 
 
-def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder, then rename.
+def atomic_write(path, writer: Callable[[str], None], suffix: str = ".part") -> None:
+    """Run ``writer(tmp)`` on a temporary file beside ``path``, then rename it over ``path``.
 
-    The file gets the permissions a plain ``open`` would give (mkstemp's are private).
+    The temporary name ends in ``suffix`` (give the real extension when the writer infers
+    the format from it). The file gets the permissions a plain ``open`` would give (mkstemp's
+    are private); on any error the temporary file is removed and nothing is left at ``path``.
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=".part", dir=path.parent)
+    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=suffix, dir=path.parent)
+    os.close(fd)
     try:
-        with os.fdopen(fd, "wb") as fh:
-            if isinstance(data, bytes | bytearray | memoryview):
-                fh.write(data)
-            else:
-                for chunk in data:
-                    fh.write(chunk)
+        writer(tmp)
         os.chmod(tmp, _FILE_MODE)
         os.replace(tmp, path)
     except BaseException:
@@ -220,6 +218,20 @@ def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
         except OSError:
             pass
         raise
+
+
+def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
+    """Write ``data`` (bytes, or chunks of them) to ``path`` through :func:`atomic_write`."""
+
+    def write(tmp: str) -> None:
+        with open(tmp, "wb") as fh:
+            if isinstance(data, bytes | bytearray | memoryview):
+                fh.write(data)
+            else:
+                for chunk in data:
+                    fh.write(chunk)
+
+    atomic_write(path, write)
 
 
 # --------------------------------------------------------------------------- npz
