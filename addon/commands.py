@@ -13,6 +13,7 @@ import time
 
 import numpy as np
 from turnabout.eversion.controls import DEFAULT_FRAMES
+from turnabout.eversion.spacing import SPACINGS
 
 HELP = {
     "scene": "write a ready .blend: baked eversion, two-sided material, camera and lights",
@@ -94,7 +95,7 @@ def _add_build_options(p: argparse.ArgumentParser) -> None:
     )
     g.add_argument(
         "--spacing",
-        choices=("bend", "even"),
+        choices=SPACINGS,
         default="bend",
         help="where the mesh puts its vertices: where the surface bends (default) or an even grid",
     )

@@ -27,6 +27,7 @@ from turnabout.eversion import (
     STAGE_NAMES,
     Controls,
 )
+from turnabout.eversion.spacing import EVEN_PER_STRIP, EVEN_RINGS
 
 # Our default side colours: a warm apricot outside, a deep teal inside.
 OUTER_COLOUR = (0.93, 0.52, 0.22, 1.0)
@@ -39,7 +40,11 @@ MESH_SPACINGS = (
         "Where it bends",
         "More vertices where the surface bends over the motion, the same in every strip",
     ),
-    ("EVEN", "Even grid", "Equal longitude and latitude steps (32 per strip x 127 rings)"),
+    (
+        "EVEN",
+        "Even grid",
+        f"Equal longitude and latitude steps ({EVEN_PER_STRIP} per strip x {EVEN_RINGS} rings)",
+    ),
 )
 
 BAKE_MODES = (
