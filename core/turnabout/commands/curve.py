@@ -69,12 +69,28 @@ def add_parser(subparsers, name: str) -> argparse.ArgumentParser:
     return parser
 
 
+SAMPLES_RANGE = (16, 200_000)
+
+
+def _samples(text: str) -> int:
+    lo, hi = SAMPLES_RANGE
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number {lo}-{hi}, got {text!r}") from None
+    if not lo <= value <= hi:
+        raise argparse.ArgumentTypeError(f"must be {lo}-{hi}, got {value}")
+    return value
+
+
 def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--samples",
-        type=int,
+        type=_samples,
         default=1024,
-        help="points per curve when sampling SVG paths or resampling, 16-200000 (default 1024)",
+        help="points per curve when sampling SVG paths or resampling, 16-200000 (default "
+        "1024); raised, with a note, when an SVG curve's bends need more (the tangent may "
+        "turn at most 30 degrees per sample spacing inside a segment)",
     )
     p.add_argument(
         "--direction",
@@ -143,6 +159,14 @@ def _describe(label: str, pts: np.ndarray, direction: float) -> list[str]:
     return lines
 
 
+def _raised_note(asked: int, used: int) -> str:
+    return (
+        f"  sampled at {used} points: --samples {asked} is too coarse for this curve's bends "
+        "(raised to the least that keeps the tangent turning at most 30 degrees per sample "
+        "spacing inside a segment, and the turning number)"
+    )
+
+
 def run_info(args) -> int:
     from ..curves import CurveError
     from ..curves.files import read_curves
@@ -173,18 +197,18 @@ def run_info(args) -> int:
             print(f"[{i}] {label}: skipped: {problem}")
             continue
         usable += 1
-        print(
-            "\n".join(
-                [
-                    f"[{i}] " + ln if k == 0 else ln
-                    for k, ln in enumerate(_describe(label, pts, direction))
-                ]
-            )
-        )
+        lines = _describe(label, pts, direction)
+        if _is_svg(args.file) and pts.shape[0] > args.samples:
+            lines.insert(1, _raised_note(args.samples, pts.shape[0]))
+        print("\n".join([f"[{i}] " + lines[0], *lines[1:]]))
     if usable == 0:
         _err(f"{args.file}: no closed regular curve to report")
         return 2
     return 0
+
+
+def _is_svg(*files: str) -> bool:
+    return any(str(f).lower().endswith(".svg") for f in files)
 
 
 def run_morph(args) -> int:
@@ -205,13 +229,16 @@ def run_morph(args) -> int:
     except CurveError as exc:
         _err(str(exc))
         return 2
+    samples = max([args.samples] + [c.shape[0] for f, c in ((args.a, a), (args.b, b)) if _is_svg(f)])
+    if samples > args.samples:
+        print(_raised_note(args.samples, samples).strip())
     bar = _LazyBar("homotopy", enabled=not args.quiet)
     try:
         h = regular_homotopy(
             a,
             b,
             frames=args.frames,
-            samples=args.samples,
+            samples=samples,
             easing=args.easing,
             names=(args.a, args.b),
             direction=direction,

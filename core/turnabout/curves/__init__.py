@@ -8,7 +8,7 @@ Public API::
     seg = bezier_segments_from_knots(co, left, right, closed=True)   # (k, 4, 2)
     c = curve_from_bezier_segments(seg, closed=True, samples=1024)
     xy = curve_points_from_local_xyz(points3)           # refuse non-planar (N, 3) points
-    c = curve_from_svg("file.svg", select=None)         # needs the 'svg' extra
+    c = curve_from_svg("file.svg", select=None)         # paths and basic shapes
     n = turning_number(c)                               # both methods, checked to agree
     rep = turning_report(c, direction=0.0)              # both figures
     w = whitney_check(c)                                # crossings with signs, Whitney's formula

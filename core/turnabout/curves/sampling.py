@@ -1,4 +1,4 @@
-"""Closed plane curves as point arrays: validation, arc length, resampling, spline sampling.
+"""Closed plane curves as point arrays: validation, arc length, resampling, spline input.
 
 A closed curve is a ``(N, 2) float64`` array of points in order; the step from the last
 point back to the first closes it (the first point is not repeated). Step ``k`` runs from
@@ -224,19 +224,11 @@ def bezier_segments_from_knots(
     return seg if closed else seg[:-1]
 
 
-def _bezier_points(ctrl: np.ndarray, t: np.ndarray) -> np.ndarray:
-    """Cubic Bezier points: ctrl (k, 4, 2), t (m,) -> (k, m, 2) (Bernstein form)."""
-    u = 1.0 - t
-    basis = np.stack([u**3, 3 * u * u * t, 3 * u * t * t, t**3], axis=1)  # (m, 4)
-    return np.einsum("mj,kjd->kmd", basis, ctrl)
-
-
 def curve_from_bezier_segments(
     control_points,
     *,
     closed: bool = True,
     samples: int = 1024,
-    per_segment: int | None = None,
     name: str = "Bezier spline",
 ) -> np.ndarray:
     """A closed curve sampled from cubic Bezier segments, equally spaced in arc length.
@@ -247,11 +239,12 @@ def curve_from_bezier_segments(
     closed : the spline is cyclic; if the last segment does not end where the first
         starts, a straight step closes it (as SVG 'Z' does). If False the last segment
         must end at the first segment's start, otherwise the curve is open and refused.
-    samples : points of the result (MIN_POINTS..MAX_SAMPLES).
-    per_segment : dense samples per segment before resampling (default: enough for
-        about 8 times ``samples`` over the spline, at least 16 per segment).
-    Returns (samples, 2) float64.
+    samples : points asked for (MIN_POINTS..MAX_SAMPLES); raised to the least the curve's
+        bends need (see :mod:`turnabout.curves.bezier`), never lowered.
+    Returns (N, 2) float64, N >= samples. Messages number segments from 0.
     """
+    from .bezier import sample_pieces
+
     try:
         ctrl = np.asarray(control_points, dtype=np.float64)
     except (TypeError, ValueError) as exc:
@@ -289,19 +282,7 @@ def curve_from_bezier_segments(
         raise CurveError(
             f"{name}: segment {int(flat[0])} has zero length (all its control points coincide)"
         )
-    if per_segment is None:
-        per_segment = int(np.clip(8 * samples // k, 16, 4096))
-    per_segment = int(per_segment)
-    if k * per_segment > MAX_POINTS:
-        per_segment = max(4, MAX_POINTS // k)
-    t = np.arange(per_segment) / per_segment  # each segment's end is the next's start
-    dense = _bezier_points(ctrl, t).reshape(-1, 2)
-    # drop repeated points where a handle coincides with its knot and the segment
-    # starts slowly, keeping the shape; genuine zero-length segments were refused above
-    steps = np.linalg.norm(step_vectors(dense), axis=1)
-    keep = steps > ZERO_STEP * steps.sum()
-    dense = closed_curve(dense[keep], name=name)
-    return resample_by_arc_length(dense, samples)
+    return sample_pieces(ctrl, np.arange(k), samples=samples, name=name)
 
 
 def curve_points_from_local_xyz(
