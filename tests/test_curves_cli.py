@@ -24,7 +24,6 @@ def test_info_prints_both_turning_numbers_and_whitney(tmp_path, capsys):
 
 
 def test_info_lists_every_svg_path(tmp_path, capsys):
-    pytest.importorskip("svgpathtools")
     f = tmp_path / "two.svg"
     f.write_text(
         '<svg xmlns="http://www.w3.org/2000/svg">'

@@ -1,10 +1,14 @@
-"""Closed-curve validation, arc length, resampling and spline sampling."""
+"""Closed-curve validation, arc length, resampling and spline sampling.
+
+Sample counts come from the curve's own bends (turnabout.curves.bezier): checked against
+turning numbers and crossing counts known from the mathematics, not against our own output.
+"""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
-from curve_shapes import circle, ellipse, limacon
+from curve_shapes import circle, curl, ellipse, limacon
 from turnabout.curves import (
     MAX_POINTS,
     CurveError,
@@ -17,7 +21,9 @@ from turnabout.curves import (
     curve_points_from_local_xyz,
     resample_by_arc_length,
     turning_number,
+    whitney_check,
 )
+from turnabout.curves.bezier import STEP_TURN, sample_pieces
 
 # four-arc cubic Bezier circle: handle length 4/3 (sqrt(2) - 1) of the radius
 # (common practice; its largest radial error is about 2.7e-4 of the radius)
@@ -151,3 +157,89 @@ def test_points_off_the_local_plane_are_refused():
     tilted[:, 2] = 0.01 * c[:, 0]
     with pytest.raises(CurveError, match="not planar"):
         curve_points_from_local_xyz(tilted)
+
+
+# ------------------------------------------------------------- sample counts from the geometry
+
+
+def hermite_segments(z, dz, n: int) -> np.ndarray:
+    """Cubic Bezier segments through z(t), t in [0, 2 pi), matching z and z' at n knots.
+
+    The Hermite-to-Bezier handles P0 + z'(t) dt / 3 (common practice). Returns (n, 4, 2).
+    """
+    t = 2 * np.pi * np.arange(n + 1) / n
+    p, d = z(t), dz(t) * (2 * np.pi / n) / 3
+    ctrl = np.stack([p[:-1], p[:-1] + d[:-1], p[1:] - d[1:], p[1:]], axis=1)
+    ctrl[-1, 3] = p[0]
+    return np.stack([ctrl.real, ctrl.imag], axis=-1)
+
+
+def curl_segments(k: int, n: int = 48) -> np.ndarray:
+    """z = e^{it} + (1.6 / m) e^{imt}, m = k + 1: a circle with k inner loops."""
+    m = k + 1
+    return hermite_segments(
+        lambda t: np.exp(1j * t) + 1.6 / m * np.exp(1j * m * t),
+        lambda t: 1j * np.exp(1j * t) + 1.6j * np.exp(1j * m * t),
+        n,
+    )
+
+
+@pytest.mark.parametrize("k", [1, 2, 3, 5])
+def test_curl_with_k_loops_turns_k_plus_one_times_even_when_few_samples_are_asked(k):
+    # H. Whitney, "On regular closed curves in the plane", Compositio Math. 4 (1937): the
+    # tangent of z = e^{it} + r e^{imt} with r m > 1 turns m times (the e^{imt} term
+    # dominates z'); its k = m - 1 small loops each add one crossing of the same sign, and
+    # Whitney's formula n = mu + sum of crossing signs holds for a normal curve.
+    c = curve_from_bezier_segments(curl_segments(k), samples=16)
+    assert c.shape[0] > 16  # raised
+    assert turning_number(c) == k + 1
+    w = whitney_check(c)
+    assert w.generic and w.holds and w.crossings.count == k
+
+
+def test_plain_arc_length_resampling_at_16_points_loses_the_loops():
+    # the old behaviour, for the record: 16 points equally spaced in arc length on a curl
+    # with turning number 3 form a polygon with turning number 1
+    assert turning_number(resample_by_arc_length(curl(4000, 2), 16)) != 3
+
+
+def test_circle_count_follows_from_its_curvature():
+    # along one spacing h the tangent of a circle of radius r turns by h / r; at most
+    # STEP_TURN per spacing needs N >= 2 pi / STEP_TURN = 12 samples
+    c = curve_from_bezier_segments(bezier_circle_segments(3.0), samples=4)
+    need = 2 * np.pi / STEP_TURN
+    assert need <= c.shape[0] <= need + 2
+    assert turning_number(c) == 1
+
+
+def test_requests_above_the_least_count_are_kept_exactly():
+    assert curve_from_bezier_segments(curl_segments(2), samples=5000).shape == (5000, 2)
+    eight = hermite_segments(
+        lambda t: np.sin(t) + 1j * np.sin(t) * np.cos(t),
+        lambda t: np.cos(t) + 1j * np.cos(2 * t),
+        24,
+    )
+    c = curve_from_bezier_segments(eight, samples=16)
+    assert turning_number(c) == 0  # a figure-eight (Whitney 1937: one crossing, mu = +-1)
+    assert whitney_check(c).crossings.count == 1
+
+
+def test_corners_are_not_bends():
+    # a square's four straight sides: no turning inside any segment, so four samples (its
+    # corners) are enough and the count is not raised
+    sq = np.array([[0.0, 0], [1, 0], [1, 1], [0, 1]])
+    seg = np.stack([sq, sq + (np.roll(sq, -1, 0) - sq) / 3, sq + 2 * (np.roll(sq, -1, 0) - sq) / 3,
+                    np.roll(sq, -1, 0)], axis=1)
+    c = sample_pieces(seg, samples=4)
+    assert np.allclose(c, sq)
+
+
+def test_cusp_message_names_the_segment():
+    seg = np.array(
+        [
+            [[0.0, 0.0], [1.0, 1.0], [0.0, 1.0], [1.0, 0.0]],
+            [[1.0, 0.0], [0.7, -0.5], [0.3, -0.5], [0.0, 0.0]],
+        ]
+    )
+    with pytest.raises(CurveError, match="segment 0 has a cusp"):
+        curve_from_bezier_segments(seg, samples=64)

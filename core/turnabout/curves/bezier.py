@@ -223,12 +223,6 @@ def sample_pieces(
         )
     ctrl[:, :2] += gap[:, None, :]
     ctrl, owner, wide = fine_pieces(ctrl, owner, tiny, FLATNESS * size)
-    if wide.any():
-        o = int(owner[np.flatnonzero(wide)[0]])
-        raise CurveError(
-            f"{name}: {describe(o)} has a cusp (its direction reverses inside the segment); "
-            "a regular curve never reverses"
-        )
     first, last = _end_tangents(ctrl, tiny)
     prev_last = np.roll(last, 1, axis=0)
     corner = np.arctan2(
@@ -239,6 +233,15 @@ def sample_pieces(
     if sharp.size:
         j = int(sharp[0])
         a, b = int(owner[j - 1]), int(owner[j])
+        if a == b:
+            wide[j] = True
+    if wide.any():
+        o = int(owner[np.flatnonzero(wide)[0]])
+        raise CurveError(
+            f"{name}: {describe(o)} has a cusp (its direction reverses inside the segment); "
+            "a regular curve never reverses"
+        )
+    if sharp.size:
         raise CurveError(
             f"{name}: cusp where {describe(a)} meets {describe(b)}: the direction turns back "
             f"by {np.degrees(abs(corner[j])):.1f} degrees (at most "
