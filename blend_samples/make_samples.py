@@ -3,12 +3,19 @@
     python blend_samples/make_samples.py            # with the bpy module installed
     blender -b -P blend_samples/make_samples.py     # inside Blender, from a source checkout
 
-default_eversion.blend  the default controls on a coarse mesh (96 x 48), 120 frames
-fast_preview.blend      a light version for quick looks (Workbench settings)
+default_eversion.blend  the default build: default controls, the default mesh, the default
+                        480 frames; a stored shape every KEY_STEP_DEFAULT frames with exact
+                        linear blends between (every frame, blends included, passes the
+                        checker)
+fast_preview.blend      a lighter mesh (PREVIEW_MESH) over PREVIEW_FRAMES frames with
+                        Workbench settings, for quick looks; every frame passes the checker
 broken_pinch.blend      a hand-made shape-key animation with a pinch and a spike, which the
-                        checker must flag (for trying the Check panel)
+                        checker must flag (for trying the Check panel): it fails on purpose
 
-Each file is kept under 5 MB.
+A sample that does not pass the checker says so in its name ("broken"); the frame count of
+each passing sample is at least what its mesh needs (no vertex moves more than one local
+edge length per frame). tests/test_blend_samples.py checks each verdict against the name.
+Each file is kept under 5 MB, all of them under 50 MB.
 """
 
 from __future__ import annotations
@@ -37,17 +44,23 @@ def _import_addon():
     return turnabout_blender
 
 
+#: Frames between stored shapes of the default sample (blends in between are exact).
+KEY_STEP_DEFAULT = 32
+#: Longitude samples x latitude rings of the preview sample (bend-adaptive spacing).
+PREVIEW_MESH = (256, 64)
+#: Frames of the preview sample, and frames between its stored shapes.
+PREVIEW_FRAMES, KEY_STEP_PREVIEW = 240, 16
+
+
 def make_default(path: str) -> None:
-    from turnabout.eversion import Controls
-    from turnabout.mesh import uniform_sphere_mesh
+    from turnabout.eversion import DEFAULT_FRAMES, Controls
 
     from turnabout_blender import headless
 
     headless.build_scene(
         Controls(),
-        frames=120,
-        key_step=1,
-        mesh=uniform_sphere_mesh(96, 48),
+        frames=DEFAULT_FRAMES,
+        key_step=KEY_STEP_DEFAULT,
         size=(640, 480),
         samples=64,
     )
@@ -56,15 +69,16 @@ def make_default(path: str) -> None:
 
 def make_preview(path: str) -> None:
     from turnabout.eversion import Controls
-    from turnabout.mesh import uniform_sphere_mesh
+    from turnabout.eversion.spacing import mesh_for
 
     from turnabout_blender import headless
 
+    controls = Controls()
     headless.build_scene(
-        Controls(),
-        frames=48,
-        key_step=4,
-        mesh=uniform_sphere_mesh(64, 24),
+        controls,
+        frames=PREVIEW_FRAMES,
+        key_step=KEY_STEP_PREVIEW,
+        mesh=mesh_for(controls, *PREVIEW_MESH),
         engine="workbench",
         size=(320, 240),
     )
@@ -136,9 +150,11 @@ SAMPLES = {
 }
 
 
-def main(out_dir: str = HERE) -> int:
+def main(out_dir: str = HERE, names=None) -> int:
     _import_addon()
     for name, maker in SAMPLES.items():
+        if names and name not in names:
+            continue
         path = os.path.join(out_dir, name)
         maker(path)
         size = os.path.getsize(path)
@@ -151,4 +167,4 @@ def main(out_dir: str = HERE) -> int:
 
 if __name__ == "__main__":
     argv = sys.argv[sys.argv.index("--") + 1 :] if "--" in sys.argv else sys.argv[1:]
-    sys.exit(main(argv[0] if argv else HERE))
+    sys.exit(main(argv[0] if argv else HERE, argv[1:]))

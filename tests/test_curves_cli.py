@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import numpy as np
-import pytest
 from curve_shapes import circle, ellipse, figure_eight, limacon
 from turnabout.cli import main
 

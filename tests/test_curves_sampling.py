@@ -228,8 +228,15 @@ def test_corners_are_not_bends():
     # a square's four straight sides: no turning inside any segment, so four samples (its
     # corners) are enough and the count is not raised
     sq = np.array([[0.0, 0], [1, 0], [1, 1], [0, 1]])
-    seg = np.stack([sq, sq + (np.roll(sq, -1, 0) - sq) / 3, sq + 2 * (np.roll(sq, -1, 0) - sq) / 3,
-                    np.roll(sq, -1, 0)], axis=1)
+    seg = np.stack(
+        [
+            sq,
+            sq + (np.roll(sq, -1, 0) - sq) / 3,
+            sq + 2 * (np.roll(sq, -1, 0) - sq) / 3,
+            np.roll(sq, -1, 0),
+        ],
+        axis=1,
+    )
     c = sample_pieces(seg, samples=4)
     assert np.allclose(c, sq)
 

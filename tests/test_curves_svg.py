@@ -147,7 +147,7 @@ def test_svg_is_read_without_svgpathtools(monkeypatch):
     assert turning_number(curve_from_svg(svg(f'<path d="{CIRCLE_D}"/>'), samples=200)) == 1
 
 
-# ------------------------------------------------------------------ paths as drawing programs write them
+# ------------------------------------------------------ paths as drawing programs write them
 
 
 def test_relative_path_that_closes_up_to_rounding_is_read():
@@ -311,9 +311,10 @@ def test_entity_declarations_are_refused_in_any_encoding():
         '<!ENTITY b "&a;&a;&a;&a;&a;&a;&a;&a;&a;&a;">]>'
         f'<svg {NS}><path d="M 0 0 L 1 0 L 1 1 Z" id="&b;"/></svg>'
     )
-    for data in (laughs.encode(), laughs.replace('"1.0"?', '"1.0" encoding="UTF-16"?').encode(
-        "utf-16"
-    )):
+    for data in (
+        laughs.encode(),
+        laughs.replace('"1.0"?', '"1.0" encoding="UTF-16"?').encode("utf-16"),
+    ):
         with pytest.raises(CurveError, match="DOCTYPE or entity"):
             read_svg_curves(data)
 

@@ -77,7 +77,9 @@ def _samples(text: str) -> int:
     try:
         value = int(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number {lo}-{hi}, got {text!r}") from None
+        raise argparse.ArgumentTypeError(
+            f"must be a whole number {lo}-{hi}, got {text!r}"
+        ) from None
     if not lo <= value <= hi:
         raise argparse.ArgumentTypeError(f"must be {lo}-{hi}, got {value}")
     return value
@@ -229,7 +231,9 @@ def run_morph(args) -> int:
     except CurveError as exc:
         _err(str(exc))
         return 2
-    samples = max([args.samples] + [c.shape[0] for f, c in ((args.a, a), (args.b, b)) if _is_svg(f)])
+    samples = max(
+        [args.samples] + [c.shape[0] for f, c in ((args.a, a), (args.b, b)) if _is_svg(f)]
+    )
     if samples > args.samples:
         print(_raised_note(args.samples, samples).strip())
     bar = _LazyBar("homotopy", enabled=not args.quiet)

@@ -268,8 +268,7 @@ def sample_pieces(
         raise CurveError(f"{name}: the curve has no length (all its points coincide)")
     # a point dropped for repeating the next one hands its corner flag on to that one
     flags = np.zeros(kept.size, bool)
-    np.logical_or.at(flags, np.searchsorted(kept, np.arange(dense.shape[0])) % kept.size,
-                     is_corner)
+    np.logical_or.at(flags, np.searchsorted(kept, np.arange(dense.shape[0])) % kept.size, is_corner)
     dense = closed_curve(dense[kept], name=name, drop_repeated_end=False)
     bend = np.where(flags, 0.0, np.abs(turn_angles(dense)))
     s = cumulative_length(dense)

@@ -61,8 +61,9 @@ def _read_npz(path: Path) -> np.ndarray:
 def read_curves(path, *, samples: int = 1024) -> list[tuple[str, np.ndarray | None, str]]:
     """Every closed curve in a file, as (label, points (N, 2) float64 or None, problem).
 
-    .svg: every path / polygon subpath, sampled to ``samples`` points (needs the 'svg'
-    extra); .npy: one (N, 2) array; .npz: the (N, 2) array named 'points'. A curve that
+    .svg: every drawn path subpath and basic shape, sampled to at least ``samples`` points
+    (more when its bends need more, see :mod:`.bezier`); .npy: one (N, 2) array; .npz: the
+    (N, 2) array named 'points'. A curve that
     cannot be used has points None and its problem set. Raises CurveError when the file
     itself cannot be read.
     """

@@ -58,12 +58,32 @@ MAX_PATH_DATA = 2_000_000
 CLOSE_TOLERANCE = 1e-6
 #: Elements whose content is never drawn by itself.
 NOT_DRAWN = frozenset(
-    {"defs", "clipPath", "mask", "symbol", "marker", "pattern", "metadata", "title", "desc",
-     "style", "script", "foreignObject", "text"}
+    {
+        "defs",
+        "clipPath",
+        "mask",
+        "symbol",
+        "marker",
+        "pattern",
+        "metadata",
+        "title",
+        "desc",
+        "style",
+        "script",
+        "foreignObject",
+        "text",
+    }
 )
 SHAPES = ("path", "rect", "circle", "ellipse", "polygon", "polyline")
-_UNITS = {"": 1.0, "px": 1.0, "pt": 4.0 / 3.0, "pc": 16.0, "mm": 96.0 / 25.4,
-          "cm": 96.0 / 2.54, "in": 96.0}
+_UNITS = {
+    "": 1.0,
+    "px": 1.0,
+    "pt": 4.0 / 3.0,
+    "pc": 16.0,
+    "mm": 96.0 / 25.4,
+    "cm": 96.0 / 2.54,
+    "in": 96.0,
+}
 _LENGTH = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*([a-z%]*)\s*$")
 _NUMBERS = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _FLIP = np.diag([1.0, -1.0, 1.0])
@@ -214,8 +234,10 @@ def _shape_path(el, tag: str, label: str) -> tuple[str, str]:
         if len(nums) < 4:
             return "", "fewer than two points"
         return "M " + " ".join(nums) + (" Z" if tag == "polygon" else ""), ""
-    num = {a: _length(el, a, None, label) for a in ("x", "y", "cx", "cy", "width", "height",
-                                                      "r", "rx", "ry")}
+    num = {
+        a: _length(el, a, None, label)
+        for a in ("x", "y", "cx", "cy", "width", "height", "r", "rx", "ry")
+    }
     for a in ("width", "height", "r", "rx", "ry"):
         if num[a] is not None and num[a] < 0:
             raise CurveError(f"{label}: {a} is negative ({num[a]:g}); SVG does not allow that")
@@ -280,8 +302,11 @@ def _curves_of(parsed, m, label: str, ident: str, tol: float, samples: int) -> l
         if gap > tol:
             problem = (
                 f"open path: it ends at {_fmt(sub.end)}, not at its start {_fmt(sub.start)}"
-                + (" (a <polyline> is open unless its last point repeats its first; use "
-                   "<polygon>)" if label.startswith("polyline") else "; close it with 'z'")
+                + (
+                    " (a <polyline> is open unless its last point repeats its first; use <polygon>)"
+                    if label.startswith("polyline")
+                    else "; close it with 'z'"
+                )
             )
             out.append(SvgCurve(name, ident, empty, False, problem))
             continue
@@ -319,8 +344,11 @@ def svg_path_data_curves(
 
 
 def _tolerance(parsed_list) -> float:
-    pts = [_affine(sub.pieces, m).reshape(-1, 2) for parsed, m in parsed_list
-           for sub in parsed.subpaths]
+    pts = [
+        _affine(sub.pieces, m).reshape(-1, 2)
+        for parsed, m in parsed_list
+        for sub in parsed.subpaths
+    ]
     if not pts:
         return 0.0
     allp = np.concatenate(pts)

@@ -177,7 +177,9 @@ def parse_path_data(d: str, *, label: str = "path", max_segments: int = 100_000)
     def finish(closed_by_z: bool) -> None:
         if pieces:
             arr = np.concatenate(pieces)
-            seg = np.concatenate([np.full(len(p), o, np.int64) for p, o in zip(pieces, owners)])
+            seg = np.concatenate(
+                [np.full(len(p), o, np.int64) for p, o in zip(pieces, owners, strict=True)]
+            )
             out.subpaths.append(Subpath(arr, seg, start.copy(), cur.copy(), closed_by_z))
         pieces.clear()
         owners.clear()
@@ -260,8 +262,10 @@ def parse_path_data(d: str, *, label: str = "path", max_segments: int = 100_000)
                 b = base + [sc.number(), sc.number()]
                 arr = arc_pieces(a, rx, ry, rot, large, sweep, b)
             if not np.all(np.isfinite(arr)) or not np.all(np.isfinite(b)):
-                raise CurveError(f"{label}: segment {out.segments + 1} has a coordinate that "
-                                 "is not a finite number")
+                raise CurveError(
+                    f"{label}: segment {out.segments + 1} has a coordinate that "
+                    "is not a finite number"
+                )
             add(cmd, arr, a, b)
             cur = b
             last_cubic_ctrl, last_quad_ctrl = cubic, quad
@@ -291,8 +295,14 @@ def parse_transform(text: str, *, label: str = "transform") -> np.ndarray:
         name, args_text = hit.group(1), hit.group(2)
         args = [float(x) for x in _NUMBER.findall(args_text)]
         leftover = _NUMBER.sub("", args_text).replace(",", "").strip()
-        allowed = {"matrix": (6,), "translate": (1, 2), "scale": (1, 2), "rotate": (1, 3),
-                   "skewX": (1,), "skewY": (1,)}[name]
+        allowed = {
+            "matrix": (6,),
+            "translate": (1, 2),
+            "scale": (1, 2),
+            "rotate": (1, 3),
+            "skewX": (1,),
+            "skewY": (1,),
+        }[name]
         if leftover or len(args) not in allowed or not all(map(math.isfinite, args)):
             raise CurveError(f"{label}: unreadable transform {hit.group().strip()!r}")
         t = np.eye(3)
