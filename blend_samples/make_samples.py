@@ -15,7 +15,7 @@ broken_pinch.blend      a hand-made shape-key animation with a pinch and a spike
 A sample that does not pass the checker says so in its name ("broken"); the frame count of
 each passing sample is at least what its mesh needs (no vertex moves more than one local
 edge length per frame). tests/test_blend_samples.py checks each verdict against the name.
-Each file is kept under 5 MB, all of them under 50 MB.
+Each file is kept under 8 MB (they are in git), all of them under 50 MB.
 """
 
 from __future__ import annotations
@@ -26,7 +26,7 @@ import sys
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 REPO = os.path.dirname(HERE)
-LIMIT_BYTES = 5_000_000
+LIMIT_BYTES = 8_000_000
 
 
 def _import_addon():

@@ -261,6 +261,7 @@ def sample_pieces(
     at_join[straight, 0] = True
     at_join[~straight, 2] = True
     new_segment = owner != np.roll(owner, 1)
+    new_segment[0] = True  # where the curve closes, even when one segment makes it all
     is_corner = (at_join & new_segment[:, None])[take]
     steps = np.linalg.norm(step_vectors(dense), axis=1)
     kept = np.flatnonzero(steps > ZERO_STEP * steps.sum())
