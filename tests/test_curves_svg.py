@@ -14,6 +14,7 @@ from turnabout.curves import (
     CurveError,
     curve_from_svg,
     read_svg_curves,
+    svg_path_data_curves,
     turning_number,
     whitney_check,
 )
@@ -188,6 +189,19 @@ def test_ends_within_the_drawing_tolerance_are_equal_and_wider_gaps_are_open():
     near_c, far_c = read_svg_curves(svg(f'<path d="{near}"/><path d="{far}"/>'), samples=64)
     assert near_c.problem == "" and turning_number(near_c.points) == -1
     assert "open path" in far_c.problem and "(0, 1)" in far_c.problem
+
+
+def test_compact_number_syntax_reads_like_the_spaced_form():
+    # SVG 1.1 path grammar (section 8.3.9): arc flags need no separator, a sign or a second
+    # decimal point starts a new number, commas and spaces are interchangeable
+    pairs = [
+        ("M 0 0 A 5 5 0 1 0 10 0 A 5 5 0 1 0 0 0 Z", "M0,0A5,5,0,1010,0A5 5 0 1 0 0 0z"),
+        ("M 0 0 L 10 0 L 10 -5.5 L 0.5 -5.5 Z", "M0 0L10 0 10-5.5.5-5.5z"),
+    ]
+    for spaced, compact in pairs:
+        (a,), (b,) = (svg_path_data_curves(d, samples=300) for d in (spaced, compact))
+        assert a.problem == b.problem == ""
+        assert np.array_equal(a.points, b.points)
 
 
 def test_path_commands_match_svgpathtools():
