@@ -250,3 +250,13 @@ def test_cusp_message_names_the_segment():
     )
     with pytest.raises(CurveError, match="segment 0 has a cusp"):
         curve_from_bezier_segments(seg, samples=64)
+
+
+def test_polyline_resampling_keeps_its_turning_number():
+    # a polygon through 4000 points of a curl with turning number 3 (Whitney 1937): 16
+    # points equally spaced in arc length would turn once; the count is raised instead
+    c = curve_from_polyline(curl(4000, 2), samples=16)
+    assert c.shape[0] > 16 and turning_number(c) == 3
+    # a request that already keeps it is met exactly, on the polygon's own path
+    sq = np.array([[0.0, 0], [2, 0], [2, 2], [0, 2]])
+    assert np.allclose(curve_from_polyline(sq, samples=8), resample_by_arc_length(sq, 8))

@@ -124,7 +124,7 @@ def fine_pieces(ctrl: np.ndarray, owner: np.ndarray, tiny: float, flat: float = 
     limit = MAX_POINTS // FINE_POINTS
     for _ in range(MAX_DEPTH):
         split = derivative_cone(ctrl, tiny) > FINE_CONE
-        if ctrl.shape[0] + int(split.sum()) > limit:
+        if split.any() and ctrl.shape[0] + int(split.sum()) > limit:
             raise CurveError(
                 f"the curve needs more than {limit} pieces to follow its bends; simplify it"
             )
@@ -199,7 +199,7 @@ def sample_pieces(
     samples = _check_samples(samples)
     ctrl = np.array(ctrl, dtype=np.float64)
     k = ctrl.shape[0] if ctrl.ndim else 0
-    if ctrl.ndim != 3 or ctrl.shape[1:] != (4, 2) or not 1 <= k <= MAX_POINTS // FINE_POINTS:
+    if ctrl.ndim != 3 or ctrl.shape[1:] != (4, 2) or not 1 <= k <= MAX_POINTS:
         raise CurveError(f"{name}: expected (k, 4, 2) control points, got shape {ctrl.shape}")
     if not np.all(np.isfinite(ctrl)):
         raise CurveError(f"{name}: a control point is not finite")
@@ -248,21 +248,22 @@ def sample_pieces(
             f"{np.degrees(CUSP_TURN):.0f} are allowed); a regular curve never reverses"
         )
     straight = derivative_cone(ctrl, tiny) <= 1e-9
-    # straight pieces: their start and middle; curved ones: FINE_POINTS points
-    t = np.concatenate([[0.0, 0.5], np.arange(FINE_POINTS) / FINE_POINTS])
+    # straight pieces: their start (and middle, for a triangle); curved ones: FINE_POINTS
+    count = np.where(straight, 2 if ctrl.shape[0] < 4 else 1, FINE_POINTS)
+    first_point = np.concatenate([[0], np.cumsum(count)[:-1]])
+    dense = np.empty((int(count.sum()), 2))
+    dense[first_point[straight]] = ctrl[straight, 0]
+    if ctrl.shape[0] < 4:
+        dense[first_point[straight] + 1] = (ctrl[straight, 0] + ctrl[straight, 3]) / 2
+    t = np.arange(FINE_POINTS) / FINE_POINTS
     u = 1.0 - t
     basis = np.stack([u**3, 3 * u * u * t, 3 * u * t * t, t**3], axis=1)
-    pts_all = np.einsum("mj,kjd->kmd", basis, ctrl)  # (k, 2 + FINE_POINTS, 2)
-    take = np.zeros((ctrl.shape[0], 2 + FINE_POINTS), bool)
-    take[straight, :2] = True
-    take[~straight, 2:] = True
-    dense = pts_all[take]
-    at_join = np.zeros_like(take)
-    at_join[straight, 0] = True
-    at_join[~straight, 2] = True
+    at = first_point[~straight][:, None] + np.arange(FINE_POINTS)
+    dense[at] = np.einsum("mj,kjd->kmd", basis, ctrl[~straight])
     new_segment = owner != np.roll(owner, 1)
     new_segment[0] = True  # where the curve closes, even when one segment makes it all
-    is_corner = (at_join & new_segment[:, None])[take]
+    is_corner = np.zeros(dense.shape[0], bool)
+    is_corner[first_point] = new_segment
     steps = np.linalg.norm(step_vectors(dense), axis=1)
     kept = np.flatnonzero(steps > ZERO_STEP * steps.sum())
     if kept.size < 4:

@@ -178,14 +178,22 @@ def curve_from_polyline(
     points : (N, 2) real array-like, in order.
     closed : the polygon is cyclic. If False, the last point must coincide with the first,
         otherwise the curve is open and refused.
-    samples : if given, resample to this many points equally spaced in arc length.
+    samples : if given, resample to at least this many points equally spaced in arc
+        length: more when fewer would lose the turning number or make a cusp (the
+        faithfulness rule of :mod:`turnabout.curves.bezier`; corners are not bends).
     Returns (N', 2) float64.
     """
+    from .bezier import sample_pieces
+
     p = _as_points(points, name)
     if not closed:
         _require_closed_ends(p, name)
     p = closed_curve(p, name=name)
-    return p if samples is None else resample_by_arc_length(p, samples)
+    if samples is None:
+        return p
+    q = np.roll(p, -1, axis=0)
+    lines = np.stack([p, p + (q - p) / 3.0, p + 2.0 * (q - p) / 3.0, q], axis=1)
+    return sample_pieces(lines, samples=samples, name=name)
 
 
 def _require_closed_ends(p: np.ndarray, name: str) -> None:
