@@ -147,7 +147,8 @@ def _check_positions(positions, name: str = "positions") -> np.ndarray:
     return pos
 
 
-def _validate(seq: MeshSequence, source: str) -> MeshSequence:
+def _validate(seq: MeshSequence, source: str, files: Sequence[Path] = ()) -> MeshSequence:
+    """Check shapes, finiteness and indices; ``files`` (one per frame) names the file at fault."""
     pos = seq.positions
     if pos.ndim != 3 or pos.shape[-1] != 3:
         raise MeshSequenceError(
@@ -160,8 +161,9 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     bad = ~np.isfinite(pos)
     if bad.any():
         f, v, _ = np.argwhere(bad)[0]
+        where = str(files[f]) if len(files) > f else source
         raise MeshSequenceError(
-            f"{source}: positions contain NaN or infinity (first at frame {f}, vertex {v}); "
+            f"{where}: positions contain NaN or infinity (first at frame {f}, vertex {v}); "
             "every coordinate must be a finite number"
         )
     if not seq.polygons:
@@ -573,7 +575,8 @@ def read_obj_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
         order = np.array([uv_map[i] for i in range(n)])
         uv = uv0[order].astype(np.float32)
     tri, polys = _as_faces(polys)
-    return _validate(MeshSequence(positions, tri, polys, uv, None), str(files[0].parent))
+    source = str(files[0] if len(files) == 1 else files[0].parent)
+    return _validate(MeshSequence(positions, tri, polys, uv, None), source, files)
 
 
 # --------------------------------------------------------------------------- PLY
@@ -843,7 +846,8 @@ def read_ply_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
             f"{files[0]}: a face uses vertex index {flat_max}, but there are {n} vertices"
         )
     tri, polys = _as_faces(faces0)
-    return _validate(MeshSequence(positions, tri, polys, None, None), str(files[0].parent))
+    source = str(files[0] if len(files) == 1 else files[0].parent)
+    return _validate(MeshSequence(positions, tri, polys, None, None), source, files)
 
 
 # --------------------------------------------------------------------------- welding
