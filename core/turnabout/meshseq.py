@@ -235,18 +235,26 @@ def write_npz(
         members["uv"] = seq.uv
     if seq.times is not None:
         members["times"] = seq.times
+    write_npz_arrays(path, {k: members[k] for k in _NPZ_MEMBERS if k in members}, compress)
+    return path
+
+
+def write_npz_arrays(path, arrays: dict[str, np.ndarray], compress: bool = False) -> Path:
+    """Write named arrays as an .npz (readable by ``np.load``), byte-identical for equal input.
+
+    Members go in the dict's order with a fixed zip timestamp and permissions (``np.savez``
+    stamps the current time); no pickled objects. Written through :func:`atomic_write`.
+    """
     method = zipfile.ZIP_DEFLATED if compress else zipfile.ZIP_STORED
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w", compression=method, allowZip64=True) as zf:
-        for name in _NPZ_MEMBERS:
-            if name not in members:
-                continue
+        for name, arr in arrays.items():
             info = zipfile.ZipInfo(name + ".npy", date_time=_ZIP_EPOCH)
             info.compress_type = method
             info.external_attr = 0o644 << 16
-            zf.writestr(info, _npy_bytes(members[name]))
+            zf.writestr(info, _npy_bytes(np.asarray(arr)))
     atomic_write_bytes(path, buf.getvalue())
-    return path
+    return Path(path)
 
 
 def _npy_header(zf: zipfile.ZipFile, info: zipfile.ZipInfo, source: str):
