@@ -188,8 +188,10 @@ def frame_metrics(
     else:
         size = float(np.sqrt(np.ptp(X[used]) ** 2 + np.ptp(Y[used]) ** 2 + np.ptp(Z[used]) ** 2))
     np.maximum(kmax, TINY, out=kmax)
-    kmax *= max(size, TINY)
-    bend = np.reciprocal(kmax)
+    with np.errstate(under="ignore"):
+        kmax *= max(size, TINY)
+    with np.errstate(divide="ignore", under="ignore"):  # a frame collapsed to one point
+        bend = np.reciprocal(kmax)
     if not all_used:
         bend[~used] = np.inf
 
