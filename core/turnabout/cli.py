@@ -73,7 +73,10 @@ def main(argv: list[str] | None = None) -> int:
     wanted = next((a for a in argv if not a.startswith("-")), None)
     try:
         parser = build_parser(wanted)
-        args = parser.parse_args(argv)
+        try:
+            args = parser.parse_args(argv)
+        except SystemExit as stop:  # argparse: --help (0) or a bad option (2, message shown)
+            return stop.code if isinstance(stop.code, int) else EXIT_BAD_INPUT
         if not getattr(args, "run", None):
             parser.print_help()
             return EXIT_OK if args.command is None else EXIT_BAD_INPUT
