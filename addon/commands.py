@@ -418,4 +418,8 @@ def main(argv: list[str] | None = None) -> int:
     if not getattr(args, "run", None):
         parser.print_help()
         return 2
-    return int(args.run(args) or 0)
+    try:
+        return int(args.run(args) or 0)
+    except KeyboardInterrupt:  # the same exit code as turnabout.cli (README, "Exit codes")
+        print(f"\nturnabout {args.command}: cancelled", file=sys.stderr)
+        return 130

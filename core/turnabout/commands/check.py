@@ -55,7 +55,10 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
         "--json", default=None, metavar="FILE", help="write the JSON report ('-': standard output)"
     )
     p.add_argument(
-        "--csv", default=None, metavar="FILE", help="write the per-frame table ('-': standard output)"
+        "--csv",
+        default=None,
+        metavar="FILE",
+        help="write the per-frame table ('-': standard output)",
     )
     p.add_argument(
         "--plot", type=Path, default=None, metavar="FILE.png",

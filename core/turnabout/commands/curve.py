@@ -48,7 +48,9 @@ def add_parser(subparsers, name: str) -> argparse.ArgumentParser:
     morph.add_argument("a", help="the starting curve (.svg, .npy or .npz)")
     morph.add_argument("b", help="the final curve (.svg, .npy or .npz)")
     morph.add_argument("--out", required=True, help="the .npz file to write")
-    morph.add_argument("--frames", type=int, default=120, help="number of frames, 2-100000 (default 120)")
+    morph.add_argument(
+        "--frames", type=int, default=120, help="number of frames, 2-100000 (default 120)"
+    )
     morph.add_argument("--path-a", default=None, help="SVG only: the path of A, by index or id")
     morph.add_argument("--path-b", default=None, help="SVG only: the path of B, by index or id")
     morph.add_argument(
