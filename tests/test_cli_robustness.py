@@ -250,6 +250,14 @@ def test_a_report_into_a_fifo_keeps_the_fifo(tmp_path, breathing):
     assert fifo.is_fifo()
 
 
+def test_dev_stdout_stays_a_device_and_gets_the_report(breathing):
+    # a report to /dev/stdout (here a pipe) is written into it, never renamed over it
+    proc = _cli("check", breathing, "--csv", "/dev/stdout", "--quiet")
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.startswith("frame,") and proc.stdout.count("\n") == 9
+    assert os.path.islink("/dev/stdout")  # still the link to the process's own stdout
+
+
 def test_a_dash_writes_the_json_or_csv_report_to_standard_output(breathing, capsys):
     assert main(["check", str(breathing), "--json", "-"]) == 0
     data = json.loads(capsys.readouterr().out)  # the report alone, no summary

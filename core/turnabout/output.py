@@ -65,14 +65,15 @@ def check_output_file(path, option: str | None = None, *, allow_stdout: bool = F
         if allow_stdout:
             return
         raise OutputError(f"{_where(option, path)}: standard output is not supported here")
+    if is_special(path):  # a FIFO, a terminal, /dev/stdout (followed like open() does)
+        if not os.access(path, os.W_OK):
+            raise OutputError(f"{_where(option, path)}: the file is not writable")
+        return
     target = resolved(path)
     if target.is_dir():
         raise OutputError(f"{_where(option, path)}: is a folder; give a file name")
-    if target.exists():
-        if not os.access(target, os.W_OK):
-            raise OutputError(f"{_where(option, path)}: the file is not writable")
-        if is_special(target):
-            return
+    if target.exists() and not os.access(target, os.W_OK):
+        raise OutputError(f"{_where(option, path)}: the file is not writable")
     _check_parent(target, path, option)
 
 
@@ -120,10 +121,10 @@ def atomic_write(path, writer: Callable[[str], None], suffix: str = ".part") -> 
     file is written in place. A missing folder raises :class:`OutputError`; other failures
     raise ``OSError`` naming ``path`` (never the temporary file).
     """
-    target = resolved(path)
-    if is_special(target):
-        writer(str(target))
+    if is_special(path):  # stat follows links the way open() will (also /dev/stdout)
+        writer(os.fspath(path))
         return
+    target = resolved(path)
     if not target.parent.is_dir():
         raise OutputError(f"{path}: the folder {target.parent} does not exist; create it first")
     try:
