@@ -130,10 +130,9 @@ def run(args) -> int:
         from ..eversion.regularity import quick_report, scan_times
 
         # the fast scan gates the build and places the default mesh; run it once, visibly
-        if choice.spacing == "bend":
-            n_scan = scan_times(controls, QUICK_GRID[2]).size
-            with ProgressBar("regularity check", n_scan, enabled=not args.quiet) as bar:
-                quick_report(controls, progress=bar)
+        n_scan = scan_times(controls, QUICK_GRID[2]).size
+        with ProgressBar("regularity check", n_scan, enabled=not args.quiet) as bar:
+            quick_report(controls, progress=bar)
         mesh = default_mesh(controls, choice.lon, choice.lat, spacing=choice.spacing)
         frames = choice.frame_count
         with ProgressBar("building", frames, enabled=not args.quiet) as bar:
