@@ -28,7 +28,6 @@ from turnabout.cli import build_parser, main
 from turnabout.surfaces import round_sphere
 
 REPO = Path(__file__).resolve().parents[1]
-EXAMPLES = REPO / "docs" / "examples"
 CONTROL_OPTIONS = {
     "--strips", "--depth", "--ripple", "--swap", "--twist", "--tuck", "--calm",
     "--frames", "--spacing", "--lon", "--lat",
@@ -65,6 +64,18 @@ def no_scan(monkeypatch):
 
     monkeypatch.setattr(regularity, "scan", boom)
     monkeypatch.setattr(regularity, "_checked", {})
+
+
+@pytest.fixture
+def curves(tmp_path):
+    """a: circle, b: ellipse (turning number 1 both), s: limacon with a loop (2), as .npy."""
+    from curve_shapes import circle, ellipse, limacon
+
+    out = {}
+    for name, pts in (("a", circle(400)), ("b", ellipse(400)), ("s", limacon(400))):
+        out[name] = str(tmp_path / f"{name}.npy")
+        np.save(out[name], pts)
+    return out
 
 
 @pytest.fixture
@@ -195,11 +206,13 @@ def test_a_folder_output_onto_an_existing_file_is_refused(tmp_path, capsys, no_s
     assert f.read_text() == "keep me"
 
 
-def test_missing_parent_folders_are_refused_not_created(tmp_path, capsys, breathing, no_scan):
+def test_missing_parent_folders_are_refused_not_created(
+    tmp_path, capsys, breathing, curves, no_scan
+):
     gone = tmp_path / "no" / "such"
     assert main(["build", "--out", str(gone / "a.npz"), "--quiet"]) == 2
     assert main(["check", str(breathing), "--json", str(gone / "r.json"), "--quiet"]) == 2
-    a, b = str(EXAMPLES / "a.svg"), str(EXAMPLES / "b.svg")
+    a, b = curves["a"], curves["b"]
     assert main(["curve", "morph", a, b, "--out", str(gone / "m.npz"), "--quiet"]) == 2
     err = capsys.readouterr().err
     assert err.count("does not exist") == 3 and str(gone) in err
@@ -340,8 +353,8 @@ def test_the_default_build_is_byte_identical_with_and_without_the_bar(tmp_path):
     assert a.read_bytes() == b.read_bytes()
 
 
-def test_curve_morph_writes_the_same_bytes_at_any_time(tmp_path, monkeypatch):
-    a, b = str(EXAMPLES / "a.svg"), str(EXAMPLES / "b.svg")
+def test_curve_morph_writes_the_same_bytes_at_any_time(tmp_path, monkeypatch, curves):
+    a, b = curves["a"], curves["b"]
     outs = []
     for k, now in enumerate((1.0e9, 1.7e9)):  # np.savez would stamp these times in the zip
         monkeypatch.setattr(time, "time", lambda now=now: now)
@@ -393,8 +406,8 @@ def test_bad_scan_grids_are_refused_without_a_traceback(capsys, no_scan, grid):
 
 
 @pytest.mark.parametrize("value", ["nan", "inf", "-inf"])
-def test_a_direction_must_be_a_finite_angle(tmp_path, capsys, value):
-    a, b = str(EXAMPLES / "a.svg"), str(EXAMPLES / "b.svg")
+def test_a_direction_must_be_a_finite_angle(tmp_path, capsys, curves, value):
+    a, b = curves["a"], curves["b"]
     for argv in (
         ["curve", "info", a, f"--direction={value}"],
         ["curve", "morph", a, b, "--out", str(tmp_path / "m.npz"), f"--direction={value}"],
@@ -489,18 +502,19 @@ def test_ctrl_c_during_a_real_build_exits_130_without_a_traceback(tmp_path):
     assert not (tmp_path / "a.npz").exists()
 
 
-def test_a_closed_pipe_ends_quietly(monkeypatch, capsys):
+def test_a_closed_pipe_ends_quietly(monkeypatch, capsys, curves):
     class ClosedPipe(io.StringIO):
         def write(self, text):
             raise BrokenPipeError(32, "Broken pipe")
 
     monkeypatch.setattr(sys, "stdout", ClosedPipe())
     monkeypatch.setattr("turnabout.cli._quiet_stdout", lambda: None)
-    assert main(["curve", "info", str(EXAMPLES / "shape.svg")]) == 0
+    assert main(["curve", "info", curves["s"]]) == 0
     assert "Traceback" not in capsys.readouterr().err
 
 
 def test_a_closed_pipe_in_a_shell_pipeline_prints_nothing_on_stderr(tmp_path):
+    pytest.importorskip("svgpathtools")  # the 'svg' extra reads the many-path file
     # many paths, so the output overflows the pipe after head has gone
     rings = "\n".join(
         f'<path d="M {10 + i},0 C {10 + i},5 {5 + i},10 {i},10 C {i - 5},10 {i - 10},5 '
@@ -540,8 +554,8 @@ def test_exit_codes_of_check(breathing, pushed, tmp_path):
     assert main(["check", str(tmp_path / "missing.npz"), "--quiet"]) == 2
 
 
-def test_exit_codes_of_curve_info_and_morph(tmp_path):
-    a, b, s = (str(EXAMPLES / n) for n in ("a.svg", "b.svg", "shape.svg"))
+def test_exit_codes_of_curve_info_and_morph(tmp_path, curves):
+    a, b, s = curves["a"], curves["b"], curves["s"]
     out = str(tmp_path / "m.npz")
     assert main(["curve", "info", s]) == 0
     assert main(["curve", "info", str(tmp_path / "none.svg")]) == 2
