@@ -21,7 +21,8 @@ from turnabout.commands.controls_options import (
 HELP = {
     "scene": "write a ready .blend: baked eversion, two-sided material, camera and lights",
     "render": "render frames of a .blend to PNG (Cycles on the CPU, or Workbench previews)",
-    "demo": "build, check and preview the default eversion into ./turnabout-demo/",
+    "demo": "build, check and preview the eversion (default controls unless given) into "
+    "./turnabout-demo/",
 }
 
 
