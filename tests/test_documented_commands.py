@@ -51,7 +51,7 @@ FULL = os.environ.get("TURNABOUT_DOCS_FULL") == "1"
 
 RUNNABLE = re.compile(r"^(turnabout\s|python (addon/)?build\.py|blender -b -P )")
 NEEDS_BPY = re.compile(r"^(turnabout (scene|render|demo)\b|python (addon/)?build\.py|blender )")
-EXIT = re.compile(r"#\s*exit (\d+)")
+EXIT = re.compile(r"\bexit (\d+)\b")  # in the line's comment: "# exit 1", "...; exit 1"
 
 
 def sh_commands(path: Path) -> list[str]:
@@ -94,7 +94,7 @@ def planned(path: Path) -> list[tuple[str, int]]:
                     f"{path.name}: unknown command {cmd!r}: make it run here, or list it in "
                     "NOT_RUN with the reason"
                 )
-            m = EXIT.search(cmd)
+            m = EXIT.search(cmd.partition("#")[2])
             code = int(m.group(1)) if m else 0
             run = bare
             if not FULL:
@@ -163,11 +163,13 @@ def test_the_extractor_reads_blocks_chains_and_documented_codes(tmp_path):
     page.write_text(
         "text\n```sh\nturnabout build --out a.npz   # note\n"
         "turnabout curve morph a.svg b.svg --out x.npz  # exit 1: different\n"
+        "turnabout check f/   # numbered files; exit 1\n"
         "python3.11 -m pytest\n```\n```python\nturnabout = 1\n```\n"
     )
     assert planned(page) == [
         ("turnabout build --out a.npz", 0),
         ("turnabout curve morph a.svg b.svg --out x.npz", 1),
+        ("turnabout check f/", 1),
     ]
     page.write_text("```sh\nmake everything\n```\n")
     with pytest.raises(AssertionError, match="unknown command"):
