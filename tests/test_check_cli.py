@@ -34,6 +34,7 @@ def push(tmp_path, sphere):
 
 
 def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, capsys):
+    pytest.importorskip("matplotlib")  # the 'plot' extra writes the PNG
     out = tmp_path / "out"
     out.mkdir()  # output folders are not created: a typo in a path is refused
     code = main(["check", str(breathing), "--json", str(out / "r.json"),

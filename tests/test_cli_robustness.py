@@ -627,6 +627,22 @@ def test_the_demo_bar_weights_each_frame_by_its_checking_cost():
     assert (at[120] - at[0]) < 0.15 * (at[480] - at[0])
 
 
+def test_a_plot_without_matplotlib_is_refused_before_the_check(
+    breathing, tmp_path, monkeypatch, capsys
+):
+    import turnabout.check as check_pkg
+
+    monkeypatch.setitem(sys.modules, "matplotlib", None)  # as if not installed
+
+    def boom(*a, **k):
+        raise AssertionError("the check ran before the refusal")
+
+    monkeypatch.setattr(check_pkg, "check_animation", boom)
+    assert main(["check", str(breathing), "--plot", str(tmp_path / "p.png"), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert "--plot" in err and "'plot' extra" in err
+
+
 def test_the_demo_folder_is_ignored_by_git():
     assert "turnabout-demo/" in (REPO / ".gitignore").read_text().split()
 

@@ -182,6 +182,11 @@ def test_documented_commands_run_as_written(doc, tmp_path):
     plan = planned(doc)
     if not plan:
         return  # a page without commands
+    for extra, module in (("plot", "matplotlib"), ("svg", "svgpathtools")):
+        uses = {"plot": "--plot", "svg": ".svg"}[extra]
+        if any(uses in cmd for cmd, _ in plan):
+            # a page that shows an optional extra at work needs it installed (test-core has it)
+            pytest.importorskip(module, reason=f"{doc.name} uses the '{extra}' extra")
     work = _workspace(tmp_path)
     _shims(tmp_path / "bin")
     env = dict(os.environ)

@@ -111,6 +111,13 @@ def _check_outputs(args) -> None:
     if args.plot is not None:
         check_suffix(args.plot, (".png",), "--plot", "the plot")
         check_output_file(args.plot, "--plot")
+        try:
+            import matplotlib  # noqa: F401
+        except ImportError:
+            raise OutputError(
+                "--plot: plots need matplotlib: install the 'plot' extra "
+                "(pip install 'turnabout[plot]')"
+            ) from None
 
 
 def run(args: argparse.Namespace) -> int:
