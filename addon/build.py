@@ -127,8 +127,14 @@ def _run_tool(tool: str, *args: str) -> str:
     return proc.stdout
 
 
-def build(out_dir: str, blender_ext: str | None = None, validate: bool = True) -> str:
-    """Build (and validate) the extension zip into ``out_dir``; returns its path."""
+def build(
+    out_dir: str, blender_ext: str | None = None, validate: bool = True, say=None
+) -> str:
+    """Build (and validate) the extension zip into ``out_dir``; returns its path.
+
+    ``say(text)`` (optional) hears what was checked and by what.
+    """
+    say = say or (lambda text: None)
     tool = find_blender_ext(blender_ext)
     out_dir = os.path.abspath(out_dir)
     os.makedirs(out_dir, exist_ok=True)
@@ -139,8 +145,16 @@ def build(out_dir: str, blender_ext: str | None = None, validate: bool = True) -
         _stage_sources(stage, wheel)
         part = os.path.join(tmp, "out.zip")
         _run_tool(tool, "build", "--source-dir", stage, "--output-filepath", part)
+        say(f"built with Blender's extension tool {tool} (blender_ext.py build)")
         if validate:
-            _run_tool(tool, "validate", part)
+            said = _run_tool(tool, "validate", part).strip()
+            last = said.splitlines()[-1].replace(part, zip_path) if said else "no message"
+            say(
+                "validated by Blender's extension validator (blender_ext.py validate, which "
+                f"reads the zip and checks its {MANIFEST}): {last}"
+            )
+        else:
+            say("not validated (--no-validate)")
         shutil.move(part, zip_path)
     return zip_path
 
@@ -184,7 +198,7 @@ def main(argv: list[str] | None = None) -> int:
     )
     args = p.parse_args(argv)
     try:
-        path = build(args.out, args.blender_ext, validate=not args.no_validate)
+        path = build(args.out, args.blender_ext, validate=not args.no_validate, say=print)
         print(f"built {path}")
         if args.install:
             install(path, args.install)

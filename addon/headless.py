@@ -6,9 +6,12 @@ or inside ``blender -b -P addon/run_headless.py -- ...``.
 
 from __future__ import annotations
 
+import contextlib
+import ctypes
 import math
 import os
 import re
+import sys
 import tempfile
 from types import SimpleNamespace
 
@@ -112,17 +115,28 @@ def add_stage(scene, radius: float = 1.0, aspect: float = 4 / 3):
     return cam
 
 
-def configure_render(
-    scene, engine: str = "cycles", size=(320, 240), samples: int = 16, transparent: bool = True
-) -> None:
-    """Render settings: Cycles on the CPU (default) or Workbench, PNG RGBA at ``size``."""
+def check_render_settings(engine: str, size, samples: int) -> None:
+    """Refuse an engine, image size or sample count Blender cannot use (before any work)."""
     if engine not in ENGINES:
-        raise HeadlessError(f"engine: must be one of {', '.join(ENGINES)}, got {engine!r}")
+        raise HeadlessError(f"--engine: must be one of {', '.join(ENGINES)}, got {engine!r}")
     w, h = size
     if not (8 <= w <= 16384 and 8 <= h <= 16384):
-        raise HeadlessError(f"size: width and height must be 8-16384 pixels, got {w}x{h}")
+        raise HeadlessError(f"--size: width and height must be 8-16384 pixels, got {w}x{h}")
     if samples < 1:
-        raise HeadlessError(f"samples: must be at least 1, got {samples}")
+        raise HeadlessError(f"--samples: must be at least 1, got {samples}")
+
+
+def configure_render(
+    scene, engine: str = "cycles", size=(320, 240), samples: int = 16, transparent: bool = False
+) -> None:
+    """Render settings: Cycles on the CPU (default) or Workbench, PNG RGBA at ``size``.
+
+    The film is opaque by default: the dark world is the backdrop the side colours were
+    chosen against, and an opaque PNG looks the same in every viewer (a transparent one is
+    shown on white or a checkerboard). Pass ``transparent=True`` to composite the surface.
+    """
+    check_render_settings(engine, size, samples)
+    w, h = size
     r = scene.render
     r.engine = ENGINES[engine]
     r.resolution_x, r.resolution_y, r.resolution_percentage = int(w), int(h), 100
@@ -153,7 +167,7 @@ def parse_frames(spec: str, default_range: tuple[int, int] | None = None) -> lis
     """
     if spec is None or not spec.strip():
         if default_range is None:
-            raise HeadlessError("frames: give frames like 1-120, 1,5,9 or 1-120:10")
+            raise HeadlessError("--frames: give frames like 1-120, 1,5,9 or 1-120:10")
         a, b = default_range
         frames = list(range(a, b + 1))
     else:
@@ -162,19 +176,25 @@ def parse_frames(spec: str, default_range: tuple[int, int] | None = None) -> lis
             m = FRAME_SPEC.match(part)
             if not m:
                 raise HeadlessError(
-                    f"frames: cannot read {part.strip()!r}; "
+                    f"--frames: cannot read {part.strip()!r}; "
                     "use N, A-B or A-B:STEP separated by commas"
                 )
             a = int(m.group(1))
             b = int(m.group(2)) if m.group(2) is not None else a
             step = int(m.group(3) or 1)
             if step < 1:
-                raise HeadlessError(f"frames: step must be at least 1 in {part.strip()!r}")
+                raise HeadlessError(f"--frames: step must be at least 1 in {part.strip()!r}")
             if b < a:
-                raise HeadlessError(f"frames: {part.strip()!r} is empty (end before start)")
+                raise HeadlessError(f"--frames: {part.strip()!r} is empty (end before start)")
+            if default_range is not None and (a < default_range[0] or b > default_range[1]):
+                lo, hi = default_range
+                raise HeadlessError(
+                    f"--frames: {part.strip()!r} reaches outside the file's frame range "
+                    f"{lo}-{hi}; give frames from {lo} to {hi}"
+                )
             frames.extend(range(a, b + 1, step))
     if not frames:
-        raise HeadlessError("frames: the selection is empty")
+        raise HeadlessError("--frames: the selection is empty")
     return sorted(set(frames))
 
 
@@ -191,15 +211,44 @@ def frame_path(out_dir: str, frame: int) -> str:
     return os.path.join(out_dir, f"frame_{frame:04d}.png")
 
 
+@contextlib.contextmanager
+def blender_output_silenced():
+    """Send what Blender prints to standard output ("Saved: ..." per render) to /dev/null.
+
+    Blender writes from C, past Python's sys.stdout, so the redirection is at the file
+    descriptor: fd 1 points at /dev/null inside the block and back afterwards, with C's
+    buffers flushed on both sides so nothing leaks into a progress bar later.
+    """
+    try:
+        fd = sys.stdout.fileno()
+    except (AttributeError, OSError, ValueError):  # no real stdout (captured): nothing to do
+        yield
+        return
+    libc = ctypes.CDLL(None)
+    sys.stdout.flush()
+    libc.fflush(None)
+    saved = os.dup(fd)
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, fd)
+        yield
+    finally:
+        libc.fflush(None)
+        os.dup2(saved, fd)
+        os.close(saved)
+        os.close(devnull)
+
+
 def render_frames(scene, out_dir: str, frames, resume: bool = True, progress=None):
     """Render each frame to ``out_dir/frame_NNNN.png``; returns (rendered, skipped) lists.
 
     With ``resume`` frames whose PNG already exists are skipped. Each image is written
     to a temporary name and renamed, so an interrupted run leaves no half file.
     """
+    from turnabout.output import check_output_folder
+
+    check_output_folder(out_dir, "output folder")
     os.makedirs(out_dir, exist_ok=True)
-    if not os.access(out_dir, os.W_OK):
-        raise HeadlessError(f"output folder: cannot write to {out_dir!r}")
     if scene.camera is None:
         raise HeadlessError("scene: has no camera to render from")
     rendered, skipped = [], []
@@ -214,7 +263,8 @@ def render_frames(scene, out_dir: str, frames, resume: bool = True, progress=Non
                 tmp = _fresh_name(path[: -len(".png")], ".png")
                 try:
                     scene.render.filepath = tmp
-                    bpy.ops.render.render(write_still=True, scene=scene.name)
+                    with blender_output_silenced():
+                        bpy.ops.render.render(write_still=True, scene=scene.name)
                     os.replace(tmp, path)
                 finally:
                     if os.path.exists(tmp):
@@ -291,7 +341,8 @@ def save_blend(path: str, compress: bool = True) -> str:
         raise HeadlessError(f"output: cannot write to {folder!r}")
     tmp = _fresh_name(path[: -len(".blend")], ".blend")
     try:
-        bpy.ops.wm.save_as_mainfile(filepath=tmp, compress=compress, copy=True)
+        with blender_output_silenced():  # "Info: Saved copy as ..." names the temporary file
+            bpy.ops.wm.save_as_mainfile(filepath=tmp, compress=compress, copy=True)
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):
@@ -319,4 +370,5 @@ def open_blend(path: str) -> None:
         and not magic.startswith(b"\x28\xb5\x2f\xfd")
     ):
         raise HeadlessError(f"input: {path!r} is not a .blend file")
-    bpy.ops.wm.open_mainfile(filepath=path, load_ui=False)
+    with blender_output_silenced():
+        bpy.ops.wm.open_mainfile(filepath=path, load_ui=False)

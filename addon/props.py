@@ -19,6 +19,7 @@ from bpy.props import (
     PointerProperty,
     StringProperty,
 )
+from turnabout.commands.controls_options import PANEL_LABELS as LABELS
 from turnabout.eversion import (
     DEFAULT_FRAMES,
     MAX_STRIPS,
@@ -26,8 +27,15 @@ from turnabout.eversion import (
     STAGE_HELP,
     STAGE_NAMES,
     Controls,
+    default_depth,
+    depth_range,
 )
-from turnabout.eversion.spacing import EVEN_PER_STRIP, EVEN_RINGS
+from turnabout.eversion.spacing import (
+    EVEN_PER_STRIP,
+    EVEN_RINGS,
+    MIN_LAT_RINGS,
+    MIN_SAMPLES_PER_WAVE,
+)
 
 # Our default side colours: a warm apricot outside, a deep teal inside.
 OUTER_COLOUR = (0.93, 0.52, 0.22, 1.0)
@@ -37,12 +45,12 @@ GUIDE_TINT = (0.98, 0.93, 0.80, 1.0)
 MESH_SPACINGS = (
     (
         "BEND",
-        "Where it bends",
+        "bend",
         "More vertices where the surface bends over the motion, the same in every strip",
     ),
     (
         "EVEN",
-        "Even grid",
+        "even",
         f"Equal longitude and latitude steps ({EVEN_PER_STRIP} per strip x {EVEN_RINGS} rings)",
     ),
 )
@@ -75,7 +83,7 @@ def _stage_annotations() -> dict:
     for stage in STAGE_NAMES:
         a, b = timing[stage]
         out[f"{stage}_start"] = FloatProperty(
-            name=f"{stage.capitalize()} start",
+            name=f"{LABELS[stage]} start",
             description=f"When {STAGE_HELP[stage]} begins, as a fraction of the motion (0-1)",
             default=a,
             min=0.0,
@@ -84,7 +92,7 @@ def _stage_annotations() -> dict:
             step=1,
         )
         out[f"{stage}_end"] = FloatProperty(
-            name=f"{stage.capitalize()} end",
+            name=f"{LABELS[stage]} end",
             description=f"When {STAGE_HELP[stage]} ends, as a fraction of the motion (0-1)",
             default=b,
             min=0.0,
@@ -98,29 +106,31 @@ def _stage_annotations() -> dict:
 class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     # --- construction
     strips: IntProperty(
-        name="Strips",
+        name=LABELS["strips"],
         description=f"Number of guide strips, the symmetry order ({MIN_STRIPS}-{MAX_STRIPS})",
         default=MIN_STRIPS,
         min=MIN_STRIPS,
         max=MAX_STRIPS,
     )
     auto_depth: BoolProperty(
-        name="Documented depth",
+        name="Default depth",
         description="Use the documented corrugation depth for the strip count",
         default=True,
     )
     depth: FloatProperty(
-        name="Depth",
-        description="Corrugation depth, a fraction of the radius (its range depends on strips)",
-        default=0.1,
-        min=0.0,
-        max=1.0,
+        name=LABELS["depth"],
+        description="Corrugation depth as a fraction of the sphere's radius "
+        f"({depth_range(MIN_STRIPS)[0]:g}-{depth_range(MIN_STRIPS)[1]:g}; the documented "
+        f"depth is {default_depth(MIN_STRIPS):g} for 8-9 strips, {default_depth(10):g} above)",
+        default=default_depth(MIN_STRIPS),
+        min=depth_range(MIN_STRIPS)[0],
+        max=depth_range(MIN_STRIPS)[1],
         precision=4,
         step=0.1,
     )
     # --- frames and sampling
     frames: IntProperty(
-        name="Frames",
+        name=LABELS["frames"],
         description="Length of the motion in frames (2 or more). 480 (20 s at 24 fps) keeps "
         "every vertex of 8 strips within one edge length per frame; 16 strips need 672",
         default=DEFAULT_FRAMES,
@@ -140,21 +150,23 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         soft_max=20,
     )
     mesh_lon: IntProperty(
-        name="Longitude samples",
-        description="Vertices around each ring (0 = the default: placed where the surface bends)",
+        name=LABELS["lon"],
+        description="Longitude samples around each ring, a multiple of strips with at least "
+        f"{MIN_SAMPLES_PER_WAVE} per strip (0 = the spacing's default)",
         default=0,
         min=0,
         soft_max=1024,
     )
     mesh_lat: IntProperty(
-        name="Latitude rings",
-        description="Rings between the poles (0 = the default: placed where the surface bends)",
+        name=LABELS["lat"],
+        description=f"Latitude rings between the poles, at least {MIN_LAT_RINGS} "
+        "(0 = the spacing's default)",
         default=0,
         min=0,
         soft_max=512,
     )
     mesh_spacing: EnumProperty(
-        name="Spacing",
+        name=LABELS["spacing"],
         items=MESH_SPACINGS,
         default="BEND",
         description="Where the mesh puts its vertices",

@@ -40,8 +40,8 @@ class TURNABOUT_PT_build(_SidebarPanel, bpy.types.Panel):
         col.prop(s, "frame_start")
         col.prop(s, "key_step")
         row = col.row(align=True)
-        row.prop(s, "mesh_lon", text="Around")
-        row.prop(s, "mesh_lat", text="Rings")
+        row.prop(s, "mesh_lon")
+        row.prop(s, "mesh_lat")
         col.prop(s, "mesh_spacing")
         col.prop(s, "bake_mode")
         if s.bake_mode == "POINT_CACHE":

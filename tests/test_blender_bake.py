@@ -182,7 +182,10 @@ def test_undo_restores_the_state_before_a_rebuild():
             {"ripple_start": 0.5},
             {"timing": {**Controls().timing, "ripple": (0.5, Controls().timing["ripple"][1])}},
         ),
-        ({"auto_depth": False, "depth": 0.9}, {"depth": 0.9}),
+        (
+            {"swap_end": 0.04},
+            {"timing": {**Controls().timing, "swap": (Controls().timing["swap"][0], 0.04)}},
+        ),
     ],
 )
 @pytest.mark.usefixtures("blank")
@@ -235,3 +238,26 @@ def test_panel_mesh_spacing_gives_the_core_meshes():
         first_ring = co.reshape(-1, 3)[1 : 1 + core.n_lon]  # the basis is the round sphere
         theta = np.mod(np.arctan2(first_ring[:, 1], first_ring[:, 0]), 2 * np.pi)
         assert np.allclose(theta, core.theta, atol=1e-5)
+
+
+@pytest.mark.usefixtures("blank")
+def test_the_panel_speaks_the_options_words_and_keeps_depth_in_range():
+    from turnabout.commands.controls_options import PANEL_LABELS
+    from turnabout.eversion import STAGE_NAMES, default_depth, depth_range
+
+    from turnabout_blender.props import TURNABOUT_PG_settings
+
+    props = TURNABOUT_PG_settings.bl_rna.properties
+    for prop, control in (("strips", "strips"), ("depth", "depth"), ("frames", "frames"),
+                          ("mesh_spacing", "spacing"), ("mesh_lon", "lon"),
+                          ("mesh_lat", "lat")):  # fmt: skip
+        assert props[prop].name == PANEL_LABELS[control]
+    for stage in STAGE_NAMES:
+        assert props[f"{stage}_start"].name == f"{PANEL_LABELS[stage]} start"
+    assert [i.name for i in props["mesh_spacing"].enum_items] == ["bend", "even"]
+    lo, hi = depth_range(8)
+    assert props["depth"].default == pytest.approx(default_depth(8))
+    assert (props["depth"].hard_min, props["depth"].hard_max) == pytest.approx((lo, hi))
+    s = bpy.context.scene.turnabout
+    s.depth = 0.9  # the old default 0.1 and this lay outside what the core accepts
+    assert s.depth == pytest.approx(hi)

@@ -1,4 +1,4 @@
-"""The sample SVG files in samples/curves and the ``--samples`` option of ``turnabout curve``."""
+"""The sample SVG files in docs/examples and the ``--samples`` option of ``turnabout curve``."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from turnabout.cli import main
 from turnabout.curves import read_svg_curves, turning_number, whitney_check
 
 REPO = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-SAMPLES = os.path.join(REPO, "samples", "curves")
+SAMPLES = os.path.join(REPO, "docs", "examples")
 
 # (file, turning number, self-crossings): each sample is drawn from a known curve.
 # SVG draws <circle> and <rect> clockwise on screen (SVG 1.1, section 9), so -1 in y-up

@@ -117,9 +117,9 @@ def test_huge_resolutions_are_refused_before_anything_is_sampled():
     from turnabout.eversion import default_mesh
 
     for kw, option in (
-        ({"n_lat": 10**9}, "latitude rings"),
-        ({"n_lon": 8 * 10**8}, "longitude samples"),
-        ({"n_lon": 8000, "n_lat": 4000}, "resolution"),
+        ({"n_lat": 10**9}, "lat"),
+        ({"n_lon": 8 * 10**8}, "lon"),
+        ({"n_lon": 8000, "n_lat": 4000}, "lon x lat"),
     ):
         with pytest.raises(ControlError, match=option):
             default_mesh(Controls(), **kw)

@@ -49,15 +49,46 @@ def build_parser(wanted: str | None = None) -> argparse.ArgumentParser:
     return parser
 
 
+# Exit codes, the same in every command (README.md, "Exit codes").
+EXIT_OK = 0  # success; every frame passes
+EXIT_FAILS = 1  # the verdict fails, or a homotopy is impossible
+EXIT_BAD_INPUT = 2  # bad input or an output that cannot be written
+EXIT_CANCELLED = 130  # cancelled (Ctrl-C)
+
+
+def _quiet_stdout() -> None:
+    """After a closed pipe: point stdout at /dev/null so the exit flush cannot fail again."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):
+        pass
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     wanted = next((a for a in argv if not a.startswith("-")), None)
-    parser = build_parser(wanted)
-    args = parser.parse_args(argv)
-    if not getattr(args, "run", None):
-        parser.print_help()
-        return 0 if args.command is None else 2
-    return int(args.run(args) or 0)
+    try:
+        parser = build_parser(wanted)
+        try:
+            args = parser.parse_args(argv)
+        except SystemExit as stop:  # argparse: --help (0) or a bad option (2, message shown)
+            return stop.code if isinstance(stop.code, int) else EXIT_BAD_INPUT
+        if not getattr(args, "run", None):
+            parser.print_help()
+            return EXIT_OK if args.command is None else EXIT_BAD_INPUT
+        return int(args.run(args) or 0)
+    except KeyboardInterrupt:
+        name = f"turnabout {args.command}" if "args" in locals() else "turnabout"
+        print(f"\n{name}: cancelled", file=sys.stderr)
+        return EXIT_CANCELLED
+    except BrokenPipeError:
+        # the reader went away (turnabout curve info x.svg | head -1): stop quietly
+        _quiet_stdout()
+        return EXIT_OK
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -20,14 +20,15 @@ from __future__ import annotations
 import io
 import os
 import re
-import tempfile
 import zipfile
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
+
+from .output import atomic_write, atomic_write_bytes  # noqa: F401
 
 # A fixed timestamp for zip members, so that npz output does not depend on the clock.
 _ZIP_EPOCH = (1980, 1, 1, 0, 0, 0)
@@ -146,7 +147,8 @@ def _check_positions(positions, name: str = "positions") -> np.ndarray:
     return pos
 
 
-def _validate(seq: MeshSequence, source: str) -> MeshSequence:
+def _validate(seq: MeshSequence, source: str, files: Sequence[Path] = ()) -> MeshSequence:
+    """Check shapes, finiteness and indices; ``files`` (one per frame) names the file at fault."""
     pos = seq.positions
     if pos.ndim != 3 or pos.shape[-1] != 3:
         raise MeshSequenceError(
@@ -159,8 +161,9 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     bad = ~np.isfinite(pos)
     if bad.any():
         f, v, _ = np.argwhere(bad)[0]
+        where = str(files[f]) if len(files) > f else source
         raise MeshSequenceError(
-            f"{source}: positions contain NaN or infinity (first at frame {f}, vertex {v}); "
+            f"{where}: positions contain NaN or infinity (first at frame {f}, vertex {v}); "
             "every coordinate must be a finite number"
         )
     if not seq.polygons:
@@ -187,51 +190,7 @@ def _validate(seq: MeshSequence, source: str) -> MeshSequence:
     return seq
 
 
-def _file_mode() -> int:
-    """Permissions of a new file under the process umask (what open() would give)."""
-    mask = os.umask(0o022)  # reading the umask means setting it; put it straight back
-    os.umask(mask)
-    return 0o666 & ~mask
-
-
-_FILE_MODE = _file_mode()  # once, at import: os.umask is process-wide, not thread-safe
-
-
-def atomic_write(path, writer: Callable[[str], None], suffix: str = ".part") -> None:
-    """Run ``writer(tmp)`` on a temporary file beside ``path``, then rename it over ``path``.
-
-    The temporary name ends in ``suffix`` (give the real extension when the writer infers
-    the format from it). The file gets the permissions a plain ``open`` would give (mkstemp's
-    are private); on any error the temporary file is removed and nothing is left at ``path``.
-    """
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix="." + path.name + ".", suffix=suffix, dir=path.parent)
-    os.close(fd)
-    try:
-        writer(tmp)
-        os.chmod(tmp, _FILE_MODE)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-
-
-def atomic_write_bytes(path: Path, data: bytes | Iterable[bytes]) -> None:
-    """Write ``data`` (bytes, or chunks of them) to ``path`` through :func:`atomic_write`."""
-
-    def write(tmp: str) -> None:
-        with open(tmp, "wb") as fh:
-            if isinstance(data, bytes | bytearray | memoryview):
-                fh.write(data)
-            else:
-                for chunk in data:
-                    fh.write(chunk)
-
-    atomic_write(path, write)
+# The one atomic writer lives in turnabout.output; re-exported here for existing callers.
 
 
 # --------------------------------------------------------------------------- npz
@@ -276,18 +235,26 @@ def write_npz(
         members["uv"] = seq.uv
     if seq.times is not None:
         members["times"] = seq.times
+    write_npz_arrays(path, {k: members[k] for k in _NPZ_MEMBERS if k in members}, compress)
+    return path
+
+
+def write_npz_arrays(path, arrays: dict[str, np.ndarray], compress: bool = False) -> Path:
+    """Write named arrays as an .npz (readable by ``np.load``), byte-identical for equal input.
+
+    Members go in the dict's order with a fixed zip timestamp and permissions (``np.savez``
+    stamps the current time); no pickled objects. Written through :func:`atomic_write`.
+    """
     method = zipfile.ZIP_DEFLATED if compress else zipfile.ZIP_STORED
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w", compression=method, allowZip64=True) as zf:
-        for name in _NPZ_MEMBERS:
-            if name not in members:
-                continue
+        for name, arr in arrays.items():
             info = zipfile.ZipInfo(name + ".npy", date_time=_ZIP_EPOCH)
             info.compress_type = method
             info.external_attr = 0o644 << 16
-            zf.writestr(info, _npy_bytes(members[name]))
+            zf.writestr(info, _npy_bytes(np.asarray(arr)))
     atomic_write_bytes(path, buf.getvalue())
-    return path
+    return Path(path)
 
 
 def _npy_header(zf: zipfile.ZipFile, info: zipfile.ZipInfo, source: str):
@@ -404,6 +371,14 @@ def read_npz(path, *, limits: ReadLimits = ReadLimits()) -> MeshSequence:
 # --------------------------------------------------------------------------- OBJ
 
 
+def _make_folder(folder: Path) -> None:
+    """Make the output folder itself (its parent must exist: a typo is not a new tree)."""
+    from .output import check_output_folder
+
+    check_output_folder(folder)
+    folder.mkdir(exist_ok=True)
+
+
 def _frame_names(folder: Path, prefix: str, ext: str, n: int) -> list[Path]:
     width = max(4, len(str(max(n - 1, 0))))
     return [folder / f"{prefix}{i:0{width}d}.{ext}" for i in range(n)]
@@ -449,7 +424,7 @@ def write_obj_sequence(folder, positions, faces, uv=None, *, prefix: str = "fram
     face_block = _obj_face_block(polys, uvs is not None)
     uv_block = b"" if uvs is None else _fmt_rows("vt %.9g %.9g", uvs.astype(np.float64))
     paths = _frame_names(folder, prefix, "obj", pos.shape[0])
-    folder.mkdir(parents=True, exist_ok=True)
+    _make_folder(folder)
     for k, path in enumerate(paths):
         header = f"# frame {k} of {pos.shape[0]}\n".encode("ascii")
         vblock = _fmt_rows("v %.9g %.9g %.9g", pos[k].astype(np.float64))
@@ -608,7 +583,8 @@ def read_obj_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
         order = np.array([uv_map[i] for i in range(n)])
         uv = uv0[order].astype(np.float32)
     tri, polys = _as_faces(polys)
-    return _validate(MeshSequence(positions, tri, polys, uv, None), str(files[0].parent))
+    source = str(files[0] if len(files) == 1 else files[0].parent)
+    return _validate(MeshSequence(positions, tri, polys, uv, None), source, files)
 
 
 # --------------------------------------------------------------------------- PLY
@@ -662,7 +638,7 @@ def write_ply_sequence(
     face_block = _ply_face_block(polys, binary)
     n_faces = len(polys)
     paths = _frame_names(folder, prefix, "ply", pos.shape[0])
-    folder.mkdir(parents=True, exist_ok=True)
+    _make_folder(folder)
     for k, path in enumerate(paths):
         header = _ply_header(pos[k], n_faces, binary)
         if binary:
@@ -878,7 +854,8 @@ def read_ply_sequence(paths, *, limits: ReadLimits = ReadLimits()) -> MeshSequen
             f"{files[0]}: a face uses vertex index {flat_max}, but there are {n} vertices"
         )
     tri, polys = _as_faces(faces0)
-    return _validate(MeshSequence(positions, tri, polys, None, None), str(files[0].parent))
+    source = str(files[0] if len(files) == 1 else files[0].parent)
+    return _validate(MeshSequence(positions, tri, polys, None, None), source, files)
 
 
 # --------------------------------------------------------------------------- welding

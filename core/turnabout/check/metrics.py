@@ -178,18 +178,21 @@ def frame_metrics(
 
     # tight bend: 1 / (largest absolute principal curvature), relative to the frame's size
     h, k = curvature_of_frame(ff, topo)
-    disc = h * h
-    disc -= k
-    np.maximum(disc, 0.0, out=disc)
-    kmax = np.sqrt(disc)
-    kmax += h
+    with np.errstate(invalid="ignore", over="ignore"):  # inf at collapsed faces (a pinch)
+        disc = h * h
+        disc -= k
+        np.maximum(disc, 0.0, out=disc)
+        kmax = np.sqrt(disc)
+        kmax += h
     if all_used:
         size = float(np.sqrt(np.ptp(X) ** 2 + np.ptp(Y) ** 2 + np.ptp(Z) ** 2))
     else:
         size = float(np.sqrt(np.ptp(X[used]) ** 2 + np.ptp(Y[used]) ** 2 + np.ptp(Z[used]) ** 2))
     np.maximum(kmax, TINY, out=kmax)
-    kmax *= max(size, TINY)
-    bend = np.reciprocal(kmax)
+    with np.errstate(under="ignore"):
+        kmax *= max(size, TINY)
+    with np.errstate(divide="ignore", under="ignore"):  # a frame collapsed to one point
+        bend = np.reciprocal(kmax)
     if not all_used:
         bend[~used] = np.inf
 

@@ -213,14 +213,14 @@ class AnimationReport:
         )
 
     def write_json(self, path) -> Path:
-        from ..meshseq import atomic_write_bytes
+        from ..output import write_bytes  # "-" is standard output
 
         text = json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
-        atomic_write_bytes(Path(path), text.encode("utf-8"))
+        write_bytes(path, text.encode("utf-8"))
         return Path(path)
 
     def write_csv(self, path) -> Path:
-        from ..meshseq import atomic_write_bytes
+        from ..output import write_bytes  # "-" is standard output
 
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
@@ -231,7 +231,7 @@ class AnimationReport:
                 v = _clean(getattr(f, col))
                 row.append("" if v is None else (f"{v:.9g}" if isinstance(v, float) else v))
             w.writerow([*row, f.verdict, "; ".join(f.reasons)])
-        atomic_write_bytes(Path(path), buf.getvalue().encode("utf-8"))
+        write_bytes(path, buf.getvalue().encode("utf-8"))
         return Path(path)
 
     def write_plot(self, path) -> Path:

@@ -6,107 +6,38 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..eversion import (
-    DEFAULT_FRAMES,
-    STAGE_HELP,
-    STAGE_NAMES,
-    ControlError,
-    Controls,
-    build,
-    default_frames,
-    default_mesh,
-)
-from ..eversion.controls import MAX_STRIPS, MIN_STRIPS, depth_range
+from ..eversion import ControlError, build, default_mesh
 from ..eversion.regularity import QUICK_GRID
-from ..eversion.spacing import CREASE_AIM_DEG, EVEN_PER_STRIP, EVEN_RINGS, SPACINGS
+from ..output import OutputError, check_output_file, check_output_folder, check_suffix
 from ..progress import Cancelled, ProgressBar
+from .controls_options import add_control_options, control_error_text, read_controls
 
-
-def _window(text: str) -> tuple[float, float]:
-    parts = text.replace(":", ",").split(",")
-    if len(parts) != 2:
-        raise argparse.ArgumentTypeError(
-            f"expected START,END (fractions of the motion), got {text!r}"
-        )
-    try:
-        return float(parts[0]), float(parts[1])
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected two numbers START,END, got {text!r}") from None
+FORMATS = ("npz", "obj", "ply")
+MAX_SCAN_POINTS = 10**8  # theta x lat per time of --scan-only: about 2.4 GB of float64 arrays
 
 
 def add_parser(sub, name: str) -> argparse.ArgumentParser:
-    lo, hi = depth_range(MIN_STRIPS)
-    d = Controls()
     p = sub.add_parser(
         name,
         help="bake the corrugated sphere eversion",
         description="Bake the corrugated sphere eversion (Thurston's corrugation method) "
         "and write it as .npz, a folder of OBJ frames, or a folder of PLY frames.",
     )
-    p.add_argument(
-        "--strips",
-        type=int,
-        default=d.strips,
-        help=f"number of guide strips (n-fold symmetry), integer {MIN_STRIPS}-{MAX_STRIPS} "
-        f"(default {d.strips})",
-    )
-    p.add_argument(
-        "--depth",
-        type=float,
-        default=None,
-        help=f"corrugation depth as a fraction of the sphere's radius, {lo:g}-{hi:g} "
-        f"(default {d.wave_depth:g})",
-    )
-    for stage in STAGE_NAMES:
-        a, b = d.timing[stage]
-        p.add_argument(
-            f"--{stage}",
-            type=_window,
-            default=None,
-            metavar="START,END",
-            help=f"when {STAGE_HELP[stage]}: fractions of the motion in [0, 1] "
-            f"(default {a:g},{b:g})",
-        )
-    p.add_argument(
-        "--frames",
-        type=int,
-        default=None,
-        help=f"number of frames, >= 2 (default {DEFAULT_FRAMES} for 8 strips, 20 s at 24 fps; "
-        f"more strips need more, up to {default_frames(16)} for 16, to keep every vertex "
-        "within one edge length per frame)",
-    )
-    p.add_argument(
-        "--spacing",
-        choices=SPACINGS,
-        default="bend",
-        help="where the mesh puts its vertices: 'bend' where the surface bends, as many as "
-        f"keep neighbouring faces within about {CREASE_AIM_DEG:g} deg in every frame; 'even' "
-        f"a plain grid ({EVEN_PER_STRIP} per strip x {EVEN_RINGS} rings) (default bend)",
-    )
-    p.add_argument(
-        "--lon",
-        type=int,
-        default=None,
-        help="longitude samples, a multiple of strips with >= 8 per strip "
-        "(default: from --spacing)",
-    )
-    p.add_argument(
-        "--lat",
-        type=int,
-        default=None,
-        help="latitude rings between the poles, >= 16 (default: from --spacing)",
-    )
+    add_control_options(p)
     p.add_argument(
         "--out",
         type=Path,
         default=None,
-        help="output: FILE.npz, or a folder for --format obj/ply (default eversion.npz)",
+        help="output: FILE.npz, or a folder of numbered frames for --format obj/ply "
+        "(default eversion.npz); its parent folder must exist",
     )
     p.add_argument(
         "--format",
-        choices=("npz", "obj", "ply"),
+        choices=FORMATS,
         default=None,
-        help="output format (default: from --out; npz)",
+        help="output format (default: from --out: FILE.npz is npz, a name ending in .ply a "
+        "folder of PLY frames, a name ending in .obj or without suffix a folder of OBJ "
+        "frames); a name whose suffix disagrees with --format is refused",
     )
     p.add_argument(
         "--scan-only",
@@ -120,25 +51,74 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
         nargs=3,
         metavar=("THETA", "LAT", "TIMES"),
         default=(720, 361, 400),
-        help="grid of --scan-only (default 720 361 400)",
+        help="grid of --scan-only: longitudes >= 4, latitudes >= 3 (poles included), "
+        "times >= 2 (default 720 361 400)",
     )
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(run=run)
     return p
 
 
-def _controls(args) -> Controls:
-    timing = dict(Controls().timing)
-    for stage in STAGE_NAMES:
-        w = getattr(args, stage)
-        if w is not None:
-            timing[stage] = w
-    return Controls(strips=args.strips, depth=args.depth, timing=timing)
+def _output(args) -> tuple[str, Path]:
+    """(format, path) of the output; OutputError when they disagree or it cannot be written.
+
+    --format npz needs a name ending in .npz; obj and ply write a folder, whose name must
+    not end in .npz or in another format's suffix. Without --format: .npz -> npz, .obj /
+    .ply -> a folder of that format, a name without suffix -> a folder of OBJ frames.
+    """
+    out = args.out or Path("eversion.npz")
+    suffix = out.suffix.lower()
+    fmt = args.format
+    if fmt is None:
+        if suffix in ("", ".obj", ".ply", ".npz"):
+            fmt = {"": "obj", ".obj": "obj", ".ply": "ply", ".npz": "npz"}[suffix]
+        else:
+            raise OutputError(
+                f"--out {out}: unknown suffix {out.suffix!r}; use FILE.npz, or a folder name "
+                "(no suffix, or .obj / .ply) for OBJ / PLY frames, or give --format"
+            )
+    if fmt == "npz":
+        check_suffix(out, (".npz",), "--out", "an npz file")
+        check_output_file(out, "--out")
+    else:
+        if suffix and suffix != f".{fmt}":
+            raise OutputError(
+                f"--out {out}: --format {fmt} writes a folder of .{fmt} frames; its name must "
+                f"have no suffix or end in .{fmt}, not {out.suffix}"
+            )
+        check_output_folder(out, "--out")
+    return fmt, out
+
+
+def _check_scan_grid(grid) -> None:
+    nt, nl, ns = grid
+    if nt < 4 or nl < 3 or ns < 2:
+        raise OutputError(
+            f"--scan-grid {nt} {nl} {ns}: needs at least 4 longitudes, 3 latitudes (poles "
+            "included) and 2 times"
+        )
+    if nt * nl > MAX_SCAN_POINTS:
+        raise OutputError(
+            f"--scan-grid {nt} {nl} {ns}: {nt * nl} points per time; at most {MAX_SCAN_POINTS}"
+        )
 
 
 def run(args) -> int:
+    # every option is checked before the first scan or progress bar
     try:
-        controls = _controls(args)
+        choice = read_controls(args)
+        controls = choice.controls
+        if args.scan_only:
+            _check_scan_grid(args.scan_grid)
+        else:
+            fmt, out = _output(args)
+    except ControlError as exc:
+        print(f"turnabout build: {control_error_text(exc)}", file=sys.stderr)
+        return 2
+    except OutputError as exc:
+        print(f"turnabout build: {exc}", file=sys.stderr)
+        return 2
+    try:
         if args.scan_only:
             from ..eversion.regularity import scan
 
@@ -153,20 +133,12 @@ def run(args) -> int:
         n_scan = scan_times(controls, QUICK_GRID[2]).size
         with ProgressBar("regularity check", n_scan, enabled=not args.quiet) as bar:
             quick_report(controls, progress=bar)
-        mesh = default_mesh(controls, args.lon, args.lat, spacing=args.spacing)
-        fmt = args.format or (
-            "npz"
-            if args.out is None or args.out.suffix == ".npz"
-            else "ply"
-            if args.out.suffix == ".ply"
-            else "obj"
-        )
-        out = args.out or Path("eversion.npz")
-        frames = default_frames(controls.strips) if args.frames is None else args.frames
-        with ProgressBar("building", max(int(frames), 1), enabled=not args.quiet) as bar:
+        mesh = default_mesh(controls, choice.lon, choice.lat, spacing=choice.spacing)
+        frames = choice.frame_count
+        with ProgressBar("building", frames, enabled=not args.quiet) as bar:
             ev = build(controls, frames=frames, mesh=mesh, progress=bar)
     except ControlError as exc:
-        print(f"turnabout build: {exc}", file=sys.stderr)
+        print(f"turnabout build: {control_error_text(exc)}", file=sys.stderr)
         return 2
     except Cancelled:
         print("turnabout build: cancelled", file=sys.stderr)
@@ -179,7 +151,7 @@ def run(args) -> int:
         path = out
         meshseq.write_obj_sequence(out, ev.positions, ev.faces, uv=ev.uv)
     else:
-        path = out.with_suffix("") if out.suffix == ".ply" else out
-        meshseq.write_ply_sequence(path, ev.positions, ev.faces)
+        path = out
+        meshseq.write_ply_sequence(out, ev.positions, ev.faces)
     print(f"wrote {ev.positions.shape[0]} frames x {ev.positions.shape[1]} vertices to {path}")
     return 0

@@ -1,11 +1,13 @@
 """``turnabout check``: judge every frame of a mesh animation file.
 
-Exit codes: 0 every frame passes (ok or warn), 1 some frame fails, 2 unreadable input.
+Exit codes: 0 every frame passes (ok or warn), 1 some frame fails, 2 unreadable input, bad
+options or an output that cannot be written, 130 cancelled.
 """
 
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 from dataclasses import fields
 from pathlib import Path
@@ -43,14 +45,20 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
         description="Check every frame of a mesh animation (.npz, an .obj/.ply file, or a "
         "folder of numbered .obj/.ply frames): pinches, creases, folds, tight bends, jumps, "
         "orientation, Gauss-map degree, double curves, triple points and singular points. "
-        "Exit code 0 when every frame passes, 1 when some frame fails, 2 for unreadable input.",
+        "Exit code 0 when every frame passes, 1 when some frame fails, 2 for unreadable input, "
+        "bad options or an output that cannot be written, 130 when cancelled.",
     )
     p.add_argument(
         "path", type=Path, help="mesh sequence: FILE.npz, FILE.obj, FILE.ply or a folder"
     )
-    p.add_argument("--json", type=Path, default=None, metavar="FILE", help="write the JSON report")
     p.add_argument(
-        "--csv", type=Path, default=None, metavar="FILE", help="write the per-frame table"
+        "--json", default=None, metavar="FILE", help="write the JSON report ('-': standard output)"
+    )
+    p.add_argument(
+        "--csv",
+        default=None,
+        metavar="FILE",
+        help="write the per-frame table ('-': standard output)",
     )
     p.add_argument(
         "--plot", type=Path, default=None, metavar="FILE.png",
@@ -83,15 +91,51 @@ def _error(msg: str) -> int:
     return 2
 
 
+def _option_words(message: str) -> str:
+    """A threshold message with the user's option names (--area-warn, not area_ratio_warn)."""
+    table = {attr: opt for opt, attr, _ in _THRESHOLD_OPTIONS}
+    pattern = re.compile(r"\b(" + "|".join(sorted(table, key=len, reverse=True)) + r")\b")
+    return pattern.sub(lambda m: table[m.group(1)], message)
+
+
+def _check_outputs(args) -> None:
+    """Every output path, checked before the work starts (raises OutputError)."""
+    from ..output import STDOUT, OutputError, check_output_file, check_suffix
+
+    if args.json == STDOUT and args.csv == STDOUT:
+        raise OutputError("--json - and --csv -: only one report can go to standard output")
+    if args.json is not None:
+        check_output_file(args.json, "--json", allow_stdout=True)
+    if args.csv is not None:
+        check_output_file(args.csv, "--csv", allow_stdout=True)
+    if args.plot is not None:
+        check_suffix(args.plot, (".png",), "--plot", "the plot")
+        check_output_file(args.plot, "--plot")
+        try:
+            import matplotlib  # noqa: F401
+        except ImportError:
+            raise OutputError(
+                "--plot: plots need matplotlib: install the 'plot' extra "
+                "(pip install 'turnabout[plot]')"
+            ) from None
+
+
 def run(args: argparse.Namespace) -> int:
     from ..check import CheckInputError, ThresholdError, Thresholds, check_animation
     from ..meshseq import MeshSequenceError, read_sequence
+    from ..output import STDOUT, OutputError
 
     names = {f.name for f in fields(Thresholds)}
     overrides = {k: v for k, v in vars(args).items() if k in names and v is not None}
     try:
         thresholds = Thresholds(**overrides)
     except ThresholdError as exc:
+        return _error(_option_words(str(exc)))
+    if args.workers < 1:
+        return _error(f"--workers: must be 1 or more, got {args.workers}")
+    try:
+        _check_outputs(args)
+    except OutputError as exc:
         return _error(str(exc))
     try:
         seq = read_sequence(args.path, weld=args.weld)
@@ -116,7 +160,7 @@ def run(args: argparse.Namespace) -> int:
     except Cancelled:
         bar.close()
         print("turnabout check: cancelled", file=sys.stderr)
-        return 2
+        return 130
     bar.close()
     try:
         if args.json:
@@ -125,10 +169,12 @@ def run(args: argparse.Namespace) -> int:
             report.write_csv(args.csv)
         if args.plot:
             report.write_plot(args.plot)
-    except (OSError, RuntimeError) as exc:
+    except (OSError, ValueError, RuntimeError) as exc:
         return _error(str(exc))
+    # with a report on standard output, that report is the whole output (no summary)
+    quiet = args.quiet or STDOUT in (args.json, args.csv)
     failing = report.failing_frames()
-    if not args.quiet:
+    if not quiet:
         t = report.topology
         print(
             f"{args.path}: {seq.n_frames} frame(s), {seq.n_vertices} vertices, "

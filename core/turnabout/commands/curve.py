@@ -4,7 +4,7 @@
     turnabout curve morph A B --frames N --out FILE.npz
 
 Exit codes: 0 done, 1 homotopy refused (different turning numbers) or failed its check,
-2 unreadable input or bad options.
+2 unreadable input, bad options or an output that cannot be written, 130 cancelled.
 """
 
 from __future__ import annotations
@@ -48,7 +48,9 @@ def add_parser(subparsers, name: str) -> argparse.ArgumentParser:
     morph.add_argument("a", help="the starting curve (.svg, .npy or .npz)")
     morph.add_argument("b", help="the final curve (.svg, .npy or .npz)")
     morph.add_argument("--out", required=True, help="the .npz file to write")
-    morph.add_argument("--frames", type=int, default=120, help="number of frames, 2-100000")
+    morph.add_argument(
+        "--frames", type=int, default=120, help="number of frames, 2-100000 (default 120)"
+    )
     morph.add_argument("--path-a", default=None, help="SVG only: the path of A, by index or id")
     morph.add_argument("--path-b", default=None, help="SVG only: the path of B, by index or id")
     morph.add_argument(
@@ -96,11 +98,22 @@ def _common(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--direction",
-        type=float,
+        type=_direction,
         default=0.0,
         help="direction (degrees counter-clockwise from +x) whose tangent points "
         "are counted and marked (default 0)",
     )
+
+
+def _direction(text: str) -> float:
+    """A finite angle in degrees (nan and inf would give meaningless counts)."""
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected an angle in degrees, got {text!r}") from None
+    if not math.isfinite(v):
+        raise argparse.ArgumentTypeError(f"must be a finite angle in degrees, got {text!r}")
+    return v
 
 
 class _LazyBar:
@@ -224,7 +237,20 @@ def run_morph(args) -> int:
     )
     from ..curves.files import read_curve, write_npz_atomic
 
+    from ..output import OutputError, check_output_file, check_suffix
+
     direction = math.radians(args.direction)
+    try:  # the output is checked before any work
+        check_suffix(args.out, (".npz",), "--out", "the homotopy file")
+        check_output_file(args.out, "--out")
+    except OutputError as exc:
+        _err(str(exc))
+        return 2
+    from ..curves.homotopy import MAX_FRAMES
+
+    if not 2 <= args.frames <= MAX_FRAMES:
+        _err(f"--frames: must be from 2 to {MAX_FRAMES}, got {args.frames}")
+        return 2
     try:
         a = read_curve(args.a, select=_selector(args.path_a), samples=args.samples)
         b = read_curve(args.b, select=_selector(args.path_b), samples=args.samples)
@@ -280,8 +306,8 @@ def run_morph(args) -> int:
     }
     try:
         write_npz_atomic(args.out, arrays)
-    except OSError as exc:
-        _err(f"cannot write {args.out}: {exc.strerror or exc}")
+    except (OSError, ValueError) as exc:
+        _err(f"--out {args.out}: cannot write ({getattr(exc, 'strerror', None) or exc})")
         return 2
     f, n = h.points.shape[:2]
     print(

@@ -7,7 +7,6 @@ in the same folder that is renamed into place, so a failed run leaves no partial
 
 from __future__ import annotations
 
-import io
 import zipfile
 from pathlib import Path
 
@@ -105,9 +104,7 @@ def read_curve(path, *, select: int | str | None = None, samples: int = 1024) ->
 
 
 def write_npz_atomic(path, arrays: dict) -> None:
-    """Write arrays to an .npz file through a temporary file renamed into place."""
-    from ..meshseq import atomic_write_bytes
+    """Write arrays to an .npz file through the one deterministic, atomic npz writer."""
+    from ..meshseq import write_npz_arrays
 
-    buf = io.BytesIO()
-    np.savez(buf, **arrays)
-    atomic_write_bytes(Path(path), buf.getvalue())
+    write_npz_arrays(path, arrays)

@@ -23,8 +23,11 @@ The ends stay on the axis because X makes the mean of cos(chi) vanish: the y-par
 the poles. For chi = -X sin(2 lat) that is J0(X) = 0 (Jacobi-Anger expansion), so X is the
 first zero of J0; the shape used adds two small harmonics, chosen to lower the peak
 curvature. G has a closed form as a trigonometric series (coefficients by FFT), so every
-function of latitude is complex-analytic: F_lat is taken by complex step (exact to
-rounding) and F_theta analytically.
+function of latitude is smooth: F_lat is taken by a fourth-order central difference in
+real arithmetic (relative error about 1e-12) and F_theta analytically. Real arithmetic
+keeps the result identical from run to run: numpy 1.26 multiplies complex arrays with or
+without a fused multiply-add depending on where they lie in memory, so a complex step
+gave last-bit differences that moved the default mesh.
 
 * The caps turn by +p (south) and -p (north) about the axis: the odd relative turn that
   the frame obstruction (pi_1(SO(3)) = Z/2) demands.
@@ -58,7 +61,7 @@ WAVE_END_LAT = 1.3  # |lat| (rad) beyond which there are no waves
 # chi = -X sum_k r_k sin(2k lat): the r_k, chosen by minimising the peak curvature on coarse
 # scans (docs/eversion.md, section 5); (1,) would give X = the first zero of J0.
 CHI_SHAPE: tuple[float, ...] = (1.0, 0.1678, -0.1691)
-COMPLEX_STEP = 1e-30
+LAT_STEP = 1e-4  # step of the central difference for F_lat (radians)
 
 # Shares of the turn driven by each motion stage (they sum to 1).
 TURN_SHARES = {"swap": 0.4, "twist": 0.2, "tuck": 0.4}
@@ -316,8 +319,9 @@ def surface(controls: Controls, t: float, theta, lat):
 def jacobian(controls: Controls, t: float, theta, lat):
     """(F, F_theta, F_lat) on the grid theta (m,) x lat (l,), each (l, m, 3).
 
-    F_theta is exact (analytic derivative of the rotation and the waves); F_lat is taken by
-    complex step, exact to rounding because every latitude function is analytic.
+    F_theta is exact (analytic derivative of the rotation and the waves); F_lat is a
+    fourth-order central difference with step LAT_STEP (relative error about 1e-12), in
+    real arithmetic so that it is the same bits in every run (see the module notes).
     """
     state = stage_state(controls, t)
     n, depth = controls.strips, controls.wave_depth
@@ -334,9 +338,13 @@ def jacobian(controls: Controls, t: float, theta, lat):
     # d/dtheta [R(theta) p] = R(theta) (e_z x p + dp/dtheta)
     jp = np.stack([-loc[..., 1], loc[..., 0], 0.0 * loc[..., 2]], -1)
     F_theta = _rotate(th, jp + loc_t)
-    h = COMPLEX_STEP
-    loc_c = _local(th.astype(complex), (la + 1j * h), state, n, depth)
-    F_lat = _rotate(th, loc_c.imag / h)
+    h = LAT_STEP
+
+    def at(shift: float):
+        return _local(th, la + shift, state, n, depth)
+
+    loc_l = (8.0 * (at(h) - at(-h)) - (at(2.0 * h) - at(-2.0 * h))) / (12.0 * h)
+    F_lat = _rotate(th, loc_l)
     return F, F_theta, F_lat
 
 

@@ -255,18 +255,27 @@ def require_regular(controls: Controls, progress: ProgressFn = no_progress) -> R
             "controls",
             f"the homotopy is not regular enough at t={t:.4f} (normalised ratio "
             f"{rep.ratio_per_time[i]:.4g}, floor {MIN_RATIO}; curvature x radius "
-            f"{rep.curvature_per_time[i]:.1f}, ceiling {MAX_CURVATURE:g}); worst point "
+            f"{rep.curvature_per_time[i]:.1f}"
+            + (f", ceiling {MAX_CURVATURE:g}" if np.isfinite(MAX_CURVATURE) else "")
+            + "); worst point "
             f"t={rep.min_ratio_at[0]:.4f}, theta={np.degrees(rep.min_ratio_at[1]):.1f} deg, "
-            f"lat={np.degrees(rep.min_ratio_at[2]):.1f} deg. Documented valid range: {lo}; {hi}",
+            f"lat={np.degrees(rep.min_ratio_at[2]):.1f} deg. Known to pass: {lo}; {hi}",
         )
     return rep
 
 
 def controls_range_text(controls: Controls) -> tuple[str, str]:
-    from .controls import MAX_STRIPS, MIN_STRIPS, depth_range
+    """What the gate is known to pass, for the strip count given: (strips, depth and timing)."""
+    from .controls import MAX_STRIPS, MIN_STRIPS, _default_timing, depth_range
 
     lo, hi = depth_range(controls.strips)
+    custom = [n for n, w in controls.timing.items() if tuple(w) != _default_timing()[n]]
+    timing = (
+        f"with the default windows (these controls change {', '.join(custom)})"
+        if custom
+        else "with the default windows"
+    )
     return (
         f"strips {MIN_STRIPS}-{MAX_STRIPS}",
-        f"depth {lo:g}-{hi:g} with the default stage timing",
+        f"for {controls.strips} strips depth {lo:g}-{hi:g} passes {timing}",
     )

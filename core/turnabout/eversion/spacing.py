@@ -44,36 +44,36 @@ def _integer(name: str, v) -> None:
         raise ControlError(name, f"must be an integer, got {v!r}")
 
 
-def _check_lon(controls: Controls, n_lon) -> None:
-    _integer("longitude samples", n_lon)
+def check_lon(controls: Controls, n_lon) -> None:
+    _integer("lon", n_lon)
     need = MIN_SAMPLES_PER_WAVE * controls.strips
     top = MAX_VERTICES // MIN_LAT_RINGS
     if n_lon > top:
-        raise ControlError("longitude samples", f"must be at most {top}, got {n_lon}")
+        raise ControlError("lon", f"must be at most {top}, got {n_lon}")
     if n_lon < need or n_lon % controls.strips:
         raise ControlError(
-            "longitude samples",
+            "lon",
             f"must be a multiple of strips ({controls.strips}) and at least {need} "
             f"({MIN_SAMPLES_PER_WAVE} samples per wave), got {n_lon}",
         )
 
 
-def _check_lat(controls: Controls, n_lat) -> None:
-    _integer("latitude rings", n_lat)
+def check_lat(controls: Controls, n_lat) -> None:
+    _integer("lat", n_lat)
     if n_lat < MIN_LAT_RINGS:
-        raise ControlError("latitude rings", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
+        raise ControlError("lat", f"must be at least {MIN_LAT_RINGS}, got {n_lat}")
     top = MAX_VERTICES // (MIN_SAMPLES_PER_WAVE * controls.strips)
     if n_lat > top:
-        raise ControlError("latitude rings", f"must be at most {top}, got {n_lat}")
+        raise ControlError("lat", f"must be at most {top}, got {n_lat}")
 
 
 def check_resolution(controls: Controls, n_lon: int, n_lat: int) -> None:
     """Refuse meshes too coarse for the waves or too large to hold."""
-    _check_lon(controls, n_lon)
-    _check_lat(controls, n_lat)
+    check_lon(controls, n_lon)
+    check_lat(controls, n_lat)
     if n_lon * n_lat + 2 > MAX_VERTICES:
         raise ControlError(
-            "resolution",
+            "lon x lat",
             f"{n_lon} x {n_lat} gives {n_lon * n_lat + 2} vertices; at most {MAX_VERTICES}",
         )
 
@@ -154,9 +154,9 @@ def mesh_for(
     if n_lon is not None and n_lat is not None:
         check_resolution(controls, n_lon, n_lat)
     elif n_lon is not None:
-        _check_lon(controls, n_lon)
+        check_lon(controls, n_lon)
     elif n_lat is not None:
-        _check_lat(controls, n_lat)
+        check_lat(controls, n_lat)
     n = controls.strips
     if spacing == "even":
         mesh = uniform_sphere_mesh(n_lon or EVEN_PER_STRIP * n, n_lat or EVEN_RINGS)

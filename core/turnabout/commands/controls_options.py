@@ -1,0 +1,213 @@
+"""The eversion's controls as command-line options: one set of names and syntaxes, defined once.
+
+``turnabout build``, ``turnabout scene`` and ``turnabout demo`` all call
+:func:`add_control_options` and :func:`read_controls`, so a control has the same option, the
+same syntax and the same help (with the default that really applies) in every command. The
+add-on's panel labels come from :data:`PANEL_LABELS`, the same words.
+
+==========  =====================  =========================================================
+control     option                 syntax
+==========  =====================  =========================================================
+strips      ``--strips N``         integer, MIN_STRIPS-MAX_STRIPS
+depth       ``--depth D``          fraction of the radius, in :func:`depth_range`
+<stage>     ``--<stage> START,END``  fractions of the motion, e.g. ``--tuck 0.6,0.9``
+frames      ``--frames N``         integer >= 2
+spacing     ``--spacing bend|even``
+lon         ``--lon N``            longitude samples, a multiple of strips, >= 8 per strip
+lat         ``--lat N``            latitude rings between the poles, >= 16
+==========  =====================  =========================================================
+
+Everything here is checked by :func:`read_controls` before any scan or bake starts; the
+mesh's counts are checked too (without the scan), so a refusal costs no work.
+"""
+
+from __future__ import annotations
+
+import argparse
+from dataclasses import dataclass
+
+from ..eversion.controls import (
+    MAX_STRIPS,
+    MIN_STRIPS,
+    STAGE_HELP,
+    STAGE_NAMES,
+    ControlError,
+    Controls,
+    default_depth,
+    default_frames,
+    depth_range,
+)
+from ..eversion.spacing import (
+    CREASE_AIM_DEG,
+    EVEN_PER_STRIP,
+    EVEN_RINGS,
+    MIN_LAT_RINGS,
+    MIN_SAMPLES_PER_WAVE,
+    SPACINGS,
+    check_lat,
+    check_lon,
+    check_resolution,
+)
+
+# The panel's label of each control (addon/props.py uses these): the option's own word.
+PANEL_LABELS: dict[str, str] = {
+    "strips": "Strips",
+    "depth": "Depth",
+    "frames": "Frames",
+    "spacing": "Spacing",
+    "lon": "Lon",
+    "lat": "Lat",
+    **{stage: stage.capitalize() for stage in STAGE_NAMES},
+}
+
+
+def _depth_default_text() -> str:
+    """'0.16 for 8-9 strips, 0.15 above' from the core's own table."""
+    counts: dict[float, list[int]] = {}
+    for s in range(MIN_STRIPS, MAX_STRIPS + 1):
+        counts.setdefault(default_depth(s), []).append(s)
+    parts = []
+    for i, (d, ss) in enumerate(counts.items()):
+        if i == len(counts) - 1 and i > 0:
+            parts.append(f"{d:g} above")
+        elif ss[0] == ss[-1]:
+            parts.append(f"{d:g} for {ss[0]} strips")
+        else:
+            parts.append(f"{d:g} for {ss[0]}-{ss[-1]} strips")
+    return ", ".join(parts)
+
+
+def stage_window(text: str) -> tuple[float, float]:
+    """Parse a stage window ``START,END`` (fractions of the motion)."""
+    parts = text.split(",")
+    if len(parts) != 2:
+        raise argparse.ArgumentTypeError(
+            f"expected START,END (two fractions of the motion, e.g. 0.6,0.9), got {text!r}"
+        )
+    try:
+        return float(parts[0]), float(parts[1])
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected two numbers START,END (e.g. 0.6,0.9), got {text!r}"
+        ) from None
+
+
+def add_control_options(p: argparse.ArgumentParser) -> None:
+    """Add --strips, --depth, --<stage>, --frames, --spacing, --lon, --lat to a parser."""
+    lo, hi = depth_range(MIN_STRIPS)
+    d = Controls()
+    g = p.add_argument_group("eversion controls (the same in build, scene, demo and the panel)")
+    g.add_argument(
+        "--strips",
+        type=int,
+        default=d.strips,
+        help=f"number of guide strips (n-fold symmetry), integer {MIN_STRIPS}-{MAX_STRIPS} "
+        f"(default {d.strips})",
+    )
+    g.add_argument(
+        "--depth",
+        type=float,
+        default=None,
+        help=f"corrugation depth as a fraction of the sphere's radius, {lo:g}-{hi:g} "
+        f"(default: {_depth_default_text()})",
+    )
+    for stage in STAGE_NAMES:
+        a, b = d.timing[stage]
+        g.add_argument(
+            f"--{stage}",
+            type=stage_window,
+            default=None,
+            metavar="START,END",
+            help=f"when {STAGE_HELP[stage]}: fractions of the motion in [0, 1] "
+            f"(default {a:g},{b:g})",
+        )
+    g.add_argument(
+        "--frames",
+        type=int,
+        default=None,
+        help=f"length of the motion in frames, >= 2 (default {default_frames(MIN_STRIPS)} "
+        f"for {MIN_STRIPS} strips, 20 s at 24 fps; more strips need more, up to "
+        f"{default_frames(MAX_STRIPS)} for {MAX_STRIPS}, to keep every vertex within one edge "
+        "length per frame)",
+    )
+    g.add_argument(
+        "--spacing",
+        choices=SPACINGS,
+        default="bend",
+        help="where the mesh puts its vertices: 'bend' where the surface bends, as many as "
+        f"keep neighbouring faces within about {CREASE_AIM_DEG:g} deg in every frame; 'even' "
+        f"a plain grid ({EVEN_PER_STRIP} per strip x {EVEN_RINGS} rings) (default bend)",
+    )
+    g.add_argument(
+        "--lon",
+        type=int,
+        default=None,
+        help="longitude samples around each ring, a multiple of --strips with at least "
+        f"{MIN_SAMPLES_PER_WAVE} per strip (default: from --spacing)",
+    )
+    g.add_argument(
+        "--lat",
+        type=int,
+        default=None,
+        help=f"latitude rings between the poles, at least {MIN_LAT_RINGS} "
+        "(default: from --spacing)",
+    )
+
+
+@dataclass(frozen=True)
+class ControlChoice:
+    """What the control options asked for, every value checked.
+
+    frames, lon, lat : None where the default for the strip count / spacing applies.
+    """
+
+    controls: Controls
+    frames: int | None
+    spacing: str
+    lon: int | None
+    lat: int | None
+
+    @property
+    def frame_count(self) -> int:
+        return default_frames(self.controls.strips) if self.frames is None else self.frames
+
+
+def read_controls(args: argparse.Namespace) -> ControlChoice:
+    """Controls, frames and mesh counts from parsed options; raises :class:`ControlError`.
+
+    Checks every value that can be checked without the regularity scan (strips, depth,
+    windows, frames, spacing, lon and lat), so a refusal comes before any work.
+    """
+    timing = dict(Controls().timing)
+    for stage in STAGE_NAMES:
+        w = getattr(args, stage, None)
+        if w is not None:
+            timing[stage] = w
+    controls = Controls(strips=args.strips, depth=args.depth, timing=timing)
+    frames = args.frames
+    if frames is not None and frames < 2:
+        raise ControlError("frames", f"must be an integer >= 2, got {frames}")
+    if args.spacing not in SPACINGS:
+        raise ControlError("spacing", f"must be one of {', '.join(SPACINGS)}, got {args.spacing!r}")
+    lon, lat = args.lon, args.lat
+    if lon is not None and lat is not None:
+        check_resolution(controls, lon, lat)
+    elif lon is not None:
+        check_lon(controls, lon)
+    elif lat is not None:
+        check_lat(controls, lat)
+    return ControlChoice(controls, frames, args.spacing, lon, lat)
+
+
+def option_name(control: str) -> str:
+    """The command-line spelling of a control named in a :class:`ControlError`."""
+    if control in ("lon x lat",):
+        return "--lon/--lat"
+    head = control.split()[0]
+    known = {"strips", "depth", "frames", "spacing", "lon", "lat", *STAGE_NAMES}
+    return f"--{head}" if head in known else control
+
+
+def control_error_text(exc: ControlError) -> str:
+    """The error with the user's option name: ``--lon: must be ...``."""
+    return f"{option_name(exc.option)}: {exc.message}"
