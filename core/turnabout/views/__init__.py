@@ -1,0 +1,5 @@
+"""Views that explain the eversion: parts, latitude slices, build-up order, level points.
+
+Everything here is bpy-free numpy; faces are in ``SphereMesh.triangles()`` order and vertices
+in SphereMesh order.
+"""
