@@ -15,6 +15,8 @@ import numpy as np
 from turnabout.eversion.controls import DEFAULT_FRAMES
 from turnabout.eversion.spacing import SPACINGS
 
+from .view_options import add_view_options, read_view_options
+
 HELP = {
     "scene": "write a ready .blend: baked eversion, two-sided material, camera and lights",
     "render": "render frames of a .blend to PNG (Cycles on the CPU, or Workbench previews)",
@@ -141,6 +143,7 @@ def add_parser(subparsers, name: str):
         p.add_argument("output", help="the .blend file to write")
         _add_build_options(p)
         _add_render_options(p, "640x480", 64)
+        add_view_options(p)
         p.set_defaults(run=run_scene)
     elif name == "render":
         p.add_argument("blend", help="the .blend file to render")
@@ -236,11 +239,12 @@ def run_scene(args) -> int:
         return 2
     from turnabout.progress import ProgressBar
 
-    from . import headless
+    from . import headless, view_wiring
     from .props import INNER_COLOUR, OUTER_COLOUR
 
     try:
         controls = _controls(args)
+        views = read_view_options(args, controls.strips)
         mesh = _mesh(controls, args.mesh, args.spacing)
         out = os.path.abspath(args.output)
         if not out.lower().endswith(".blend"):
@@ -266,6 +270,7 @@ def run_scene(args) -> int:
                 progress=bar,
             )
         headless.point_cache_relative(ob, out)
+        view_wiring.apply_view_request(ob.users_scene[0], ob, views, args.size)
         headless.save_blend(out)
     except (ValueError, OSError) as exc:
         return _fail("scene", exc)
