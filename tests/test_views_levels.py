@@ -420,3 +420,35 @@ def test_check_command_refuses_a_bad_up_before_reading(tmp_path, value, words):
     assert proc.returncode == 2
     assert "--up" in proc.stderr and words in proc.stderr
     assert "Traceback" not in proc.stderr
+
+
+def test_checker_warns_where_the_signed_count_is_not_half_chi():
+    # a sphere crumpled at a third of its edge length: vertex stars fold over, and in some
+    # frames the level points no longer count Hopf's degree chi / 2 = 1; the checker says so
+    from turnabout.check import check_animation
+
+    p, f = icosphere(3)
+    rng = np.random.default_rng(0)
+    pos = p[None] + 0.05 * rng.normal(size=(12, *p.shape))
+    pos[0] = p
+
+    def counts(positions, faces):
+        lp = level_points(positions, faces, (0, 0, 1))
+        return np.column_stack([lp.signed_count, lp.kind_counts()])
+
+    rep = check_animation(pos, f, intersections=False, level_counts=counts, level_up=(0, 0, 1))
+    assert rep.level_up == (0.0, 0.0, 1.0)
+    signed = np.array([fr.level_signed_count for fr in rep.frames])
+    assert signed[0] == 1 and np.any(signed != 1)
+    for fr in rep.frames:
+        flagged = any("chi/2 = 1" in r and "level points" in r for r in fr.reasons)
+        assert flagged == (fr.level_signed_count != 1)
+        if flagged:
+            assert fr.verdict in ("warn", "fail")
+    table = rep.metrics_table()
+    np.testing.assert_array_equal(table["level_signed_count"], signed)
+    # without a counter the columns are absent from the table and null in the JSON
+    plain = check_animation(pos[:2], f, intersections=False)
+    assert "level_signed_count" not in plain.metrics_table()
+    assert plain.to_dict()["frames"][0]["level_signed_count"] is None
+    assert plain.to_dict()["level_up"] is None
