@@ -137,8 +137,22 @@ def _perpendicular(u: np.ndarray) -> np.ndarray:
     return p / np.linalg.norm(p)
 
 
-def side_view(centre, radius: float, up, half_fov: float, elevation: float = 0.3,
-              margin: float = 1.1) -> tuple[np.ndarray, np.ndarray]:
+def cutaway_distances(distances, extent, room: float = 1.15) -> np.ndarray:
+    """Per-frame camera clip start that cuts away everything nearer than the band.
+
+    distances : (F,) camera-to-centroid distances; extent : (F,) band radius about its
+    centroid. Every band point is at least ``distance - extent`` from the camera; the clip
+    starts ``room`` times the extent before the centroid, and never nearer than 2 % of the
+    distance. Returns (F,) float64.
+    """
+    d = np.asarray(distances, dtype=np.float64)
+    e = np.asarray(extent, dtype=np.float64)
+    return np.maximum(d - room * e, 0.02 * d)
+
+
+def side_view(
+    centre, radius: float, up, half_fov: float, elevation: float = 0.3, margin: float = 1.1
+) -> tuple[np.ndarray, np.ndarray]:
     """A fixed camera beside the surface, framing a ball of ``radius`` about ``centre``.
 
     The camera sits in the direction of -Y made horizontal (perpendicular to ``up``; +X
