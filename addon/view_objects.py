@@ -35,12 +35,18 @@ from .view_options import (
     STRIPE_B,
     PartsChoice,
     ViewOptionError,
-    polygon_values,
+    polygon_pairs,
 )
 
 PART_ATTR = "turnabout_part"
 TILE_ATTR = "turnabout_tile"
 REVEAL_ATTR = "turnabout_reveal"
+SECOND_SUFFIX = "_b"  # the value of a quad's second triangle (a, c, d)
+SPLIT_ATTR = "turnabout_split"  # quads whose two triangles differ
+CORNER_ATTR = "turnabout_corner_d"  # 1 on the fourth corner of every quad
+VIEW_ATTRIBUTES = tuple(
+    n + e for n in (PART_ATTR, TILE_ATTR, REVEAL_ATTR) for e in ("", SECOND_SUFFIX)
+) + (SPLIT_ATTR, CORNER_ATTR)
 VIEW_TAG = "turnabout_view"  # on view objects: JSON {"kind", "source", ...}
 HIDDEN_TAG = "turnabout_hidden_by_view"  # on the eversion while a view hides it
 FILTER_MOD = "Turnabout view"
@@ -104,13 +110,39 @@ def sphere_of(ob, info: dict):
     uniform = uniform_sphere_mesh(n_lon, n_lat)
     if np.allclose(theta, uniform.theta, atol=1e-5) and np.allclose(lat, uniform.lat, atol=1e-5):
         return uniform
+    theta, lat = symmetric_samples(theta, lat, info["strips"])
     return SphereMesh(theta=theta, lat=lat)
 
 
-def face_tables(ob, info: dict):
-    """Per-polygon part labels and tile indices of the eversion, from the core.
+def symmetric_samples(theta: np.ndarray, lat: np.ndarray, strips: int, tol: float = 1e-5):
+    """Longitudes and latitudes read back in float32, made exactly as symmetric as the
+    eversion's meshes are built: every strip repeats the first (theta + k 2 pi / n), the
+    first strip is mirrored about its quarter (theta -> pi / n - theta) and the latitudes
+    about the equator. Values that are not symmetric to within ``tol`` are left as read.
 
-    Returns (label (P,) int32, tile (P,) int32, parts) with P polygons of the add-on's mesh.
+    theta : (n_lon,) float64, lat : (n_lat,) float64; returns the same shapes.
+    """
+    n_lon = theta.shape[0]
+    if n_lon % strips:
+        return theta, lat
+    per, period = n_lon // strips, 2 * np.pi / strips
+    first = theta[:per]
+    strips_ok = np.allclose(theta.reshape(strips, per) - first, np.arange(strips)[:, None] * period,
+                            atol=tol)  # fmt: skip
+    mirrored = np.sort(np.mod(period / 2 - first, period))
+    mirrored = np.where(mirrored > period - tol, mirrored - period, mirrored)
+    if strips_ok and np.allclose(np.sort(mirrored), first, atol=tol):
+        first = 0.5 * (first + np.sort(mirrored))
+        theta = (first[None, :] + np.arange(strips)[:, None] * period).ravel()
+    if np.allclose(lat, -lat[::-1], atol=tol):
+        lat = 0.5 * (lat - lat[::-1])
+    return theta, lat
+
+
+def face_tables(ob, info: dict):
+    """Per-triangle part labels and tile indices of the eversion, from the core.
+
+    Returns (label (M,) int32, tile (M,) int32) in ``SphereMesh.triangles()`` order.
     """
     from turnabout.views.parts import surface_parts, symmetry_face_maps
 
@@ -120,43 +152,82 @@ def face_tables(ob, info: dict):
     piece = np.flatnonzero(parts.fundamental_piece())
     maps = symmetry_face_maps(sphere, n)
     tile = np.full(parts.label.shape[0], -1, np.int64)
-    for g in range(maps.shape[0]):
+    for g in range(maps.shape[0]):  # the 2n group elements
         tile[maps[g][piece]] = g
     if (tile < 0).any():
         raise ViewError("tiles: the copies of the fundamental piece do not cover the surface")
-    label = polygon_values(info["n_lon"], info["n_lat"], parts.label).astype(np.int32)
-    return label, polygon_values(info["n_lon"], info["n_lat"], tile).astype(np.int32), parts
+    return parts.label.astype(np.int32), tile.astype(np.int32)
 
 
-def _write_face_attribute(me, name: str, kind: str, values: np.ndarray) -> None:
+def _write_attribute(me, name: str, kind: str, domain: str, values: np.ndarray) -> None:
     attr = me.attributes.get(name)
-    if attr is not None and (attr.data_type != kind or attr.domain != "FACE"):
+    if attr is not None and (attr.data_type != kind or attr.domain != domain):
         me.attributes.remove(attr)
         attr = None
     if attr is None:
-        attr = me.attributes.new(name, kind, "FACE")
+        attr = me.attributes.new(name, kind, domain)
     attr.data.foreach_set("value", values)
+
+
+def _read_attribute(me, name: str, dtype) -> np.ndarray | None:
+    attr = me.attributes.get(name)
+    if attr is None or attr.domain != "FACE":
+        return None
+    out = np.empty(len(me.polygons), dtype)
+    attr.data.foreach_get("value", out)
+    return out
+
+
+def _write_split(me) -> None:
+    """Mark the quads whose two triangles differ in part, tile or reveal value, and the
+    fourth corner (d) of every quad, by which the view tells a split quad's halves apart."""
+    split = np.zeros(len(me.polygons), bool)
+    for name, dtype in ((PART_ATTR, np.int32), (TILE_ATTR, np.int32), (REVEAL_ATTR, np.float32)):
+        first = _read_attribute(me, name, dtype)
+        second = _read_attribute(me, name + SECOND_SUFFIX, dtype)
+        if first is not None and second is not None:
+            split |= first != second
+    _write_attribute(me, SPLIT_ATTR, "BOOLEAN", "FACE", split)
+    starts = np.empty(len(me.polygons), np.int32)
+    sizes = np.empty(len(me.polygons), np.int32)
+    me.polygons.foreach_get("loop_start", starts)
+    me.polygons.foreach_get("loop_total", sizes)
+    corner = np.zeros(len(me.loops), np.float32)
+    corner[starts[sizes == 4] + 3] = 1.0
+    _write_attribute(me, CORNER_ATTR, "FLOAT", "CORNER", corner)
     me.update()
 
 
-def ensure_part_attributes(ob, label: np.ndarray, tile: np.ndarray) -> None:
+def write_pair(ob, info: dict, name: str, kind: str, per_triangle: np.ndarray) -> None:
+    """Write per-triangle values as the polygon attributes ``name`` and ``name_b``."""
+    first, second = polygon_pairs(info["n_lon"], info["n_lat"], per_triangle)
+    _write_attribute(ob.data, name, kind, "FACE", first)
+    _write_attribute(ob.data, name + SECOND_SUFFIX, kind, "FACE", second)
+    _write_split(ob.data)
+
+
+def ensure_part_attributes(ob, info: dict, label: np.ndarray, tile: np.ndarray) -> None:
     """Write the part and tile attributes on the shared mesh (once; rewritten if changed)."""
     me = ob.data
     for name, values in ((PART_ATTR, label), (TILE_ATTR, tile)):
-        attr = me.attributes.get(name)
-        if attr is not None and attr.data_type == "INT" and attr.domain == "FACE":
-            have = np.empty(len(me.polygons), np.int32)
-            attr.data.foreach_get("value", have)
-            if np.array_equal(have, values):
-                continue
-        _write_face_attribute(me, name, "INT", values)
+        first, second = polygon_pairs(info["n_lon"], info["n_lat"], values)
+        have = _read_attribute(me, name, np.int32)
+        have_b = _read_attribute(me, name + SECOND_SUFFIX, np.int32)
+        if have is None or have_b is None or not (
+            np.array_equal(have, first) and np.array_equal(have_b, second)
+        ):
+            write_pair(ob, info, name, "INT", values)
 
 
 # ----------------------------------------------------------------------------- filter nodes
 
 
 def _new_filter_group(name: str, n_parts: int, n_tiles: int):
-    """A node group that keeps chosen parts and tiles and faces already revealed."""
+    """A node group that keeps chosen parts and tiles and faces already revealed.
+
+    Quads marked split are cut along a-c first (as the core cuts them), and each half reads
+    its own value: the first or the ``_b`` attribute, by whether it holds the quad's d corner.
+    """
     ng = bpy.data.node_groups.new(name, "GeometryNodeTree")
     ng.interface.new_socket("Geometry", in_out="INPUT", socket_type="NodeSocketGeometry")
     ng.interface.new_socket("Geometry", in_out="OUTPUT", socket_type="NodeSocketGeometry")
@@ -167,10 +238,34 @@ def _new_filter_group(name: str, n_parts: int, n_tiles: int):
     gin = nodes.new("NodeGroupInput")
     gout = nodes.new("NodeGroupOutput")
 
-    def switch(attr_name: str, count: int, node_name: str, y: float):
-        attr = nodes.new("GeometryNodeInputNamedAttribute")
-        attr.data_type = "INT"
-        attr.inputs["Name"].default_value = attr_name
+    def named(attr_name: str, kind: str, x: float, y: float):
+        node = nodes.new("GeometryNodeInputNamedAttribute")
+        node.data_type = kind
+        node.inputs["Name"].default_value = attr_name
+        node.location = (x, y)
+        return node.outputs["Attribute"]
+
+    split = named(SPLIT_ATTR, "BOOLEAN", -900, 400)
+    cut = nodes.new("GeometryNodeTriangulate")
+    cut.inputs["Quad Method"].default_value = "Fixed"  # along the first and third corners
+    links.new(gin.outputs["Geometry"], cut.inputs["Mesh"])
+    links.new(split, cut.inputs["Selection"])
+    second = nodes.new("FunctionNodeCompare")
+    second.data_type = "FLOAT"
+    second.operation = "GREATER_THAN"
+    second.inputs["B"].default_value = 0.1
+    links.new(named(CORNER_ATTR, "FLOAT", -1100, -600), second.inputs["A"])
+
+    def pick(attr_name: str, kind: str, y: float):
+        sw = nodes.new("GeometryNodeSwitch")
+        sw.input_type = kind
+        links.new(second.outputs[0], sw.inputs["Switch"])
+        links.new(named(attr_name, kind, -1100, y), sw.inputs["False"])
+        links.new(named(attr_name + SECOND_SUFFIX, kind, -1100, y - 150), sw.inputs["True"])
+        sw.location = (-850, y)
+        return sw.outputs[0]
+
+    def switch(value, count: int, node_name: str, y: float):
         sw = nodes.new("GeometryNodeIndexSwitch")
         sw.name = sw.label = node_name
         sw.data_type = "BOOLEAN"
@@ -178,19 +273,16 @@ def _new_filter_group(name: str, n_parts: int, n_tiles: int):
             sw.index_switch_items.new()
         for k in range(count):
             sw.inputs[k + 1].default_value = True
-        links.new(attr.outputs["Attribute"], sw.inputs[0])
-        attr.location, sw.location = (-600, y), (-350, y)
+        links.new(value, sw.inputs[0])
+        sw.location = (-600, y)
         return sw
 
-    parts = switch(PART_ATTR, n_parts, N_PARTS, 300)
-    tiles = switch(TILE_ATTR, n_tiles, N_TILES, 0)
-    rev = nodes.new("GeometryNodeInputNamedAttribute")
-    rev.data_type = "FLOAT"
-    rev.inputs["Name"].default_value = REVEAL_ATTR
+    parts = switch(pick(PART_ATTR, "INT", 300), n_parts, N_PARTS, 300)
+    tiles = switch(pick(TILE_ATTR, "INT", 0), n_tiles, N_TILES, 0)
     less = nodes.new("FunctionNodeCompare")
     less.data_type = "FLOAT"
     less.operation = "LESS_THAN"
-    links.new(rev.outputs["Attribute"], less.inputs["A"])
+    links.new(pick(REVEAL_ATTR, "FLOAT", -300), less.inputs["A"])
     links.new(gin.outputs[REVEAL_INPUT], less.inputs["B"])
     both = nodes.new("FunctionNodeBooleanMath")
     both.operation = "AND"
@@ -205,12 +297,12 @@ def _new_filter_group(name: str, n_parts: int, n_tiles: int):
     links.new(keep.outputs[0], drop.inputs[0])
     delete = nodes.new("GeometryNodeDeleteGeometry")
     delete.domain = "FACE"
-    links.new(gin.outputs["Geometry"], delete.inputs["Geometry"])
+    links.new(cut.outputs["Mesh"], delete.inputs["Geometry"])
     links.new(drop.outputs[0], delete.inputs["Selection"])
     links.new(delete.outputs["Geometry"], gout.inputs["Geometry"])
-    rev.location, less.location = (-600, -300), (-350, -300)
-    gin.location, both.location, keep.location = (-600, -500), (-150, 150), (0, 0)
-    drop.location, delete.location, gout.location = (150, 0), (350, 0), (550, 0)
+    gin.location, cut.location, second.location = (-1100, 600), (-600, 600), (-850, -600)
+    less.location, both.location, keep.location = (-600, -300), (-350, 150), (-150, 0)
+    drop.location, delete.location, gout.location = (0, 0), (250, 300), (500, 300)
     return ng
 
 
@@ -286,8 +378,8 @@ def make_parts_view(scene, ob, choice: PartsChoice, info: dict | None = None):
         )
     view = view_object_of(ob)
     if view is None:
-        label, tile, _ = face_tables(ob, info)  # the core work, before any data is made
-        ensure_part_attributes(ob, label, tile)
+        label, tile = face_tables(ob, info)  # the core work, before any data is made
+        ensure_part_attributes(ob, info, label, tile)
         view = bpy.data.objects.new(f"{ob.name} view", ob.data)
         for coll in ob.users_collection:
             coll.objects.link(view)
@@ -318,13 +410,13 @@ def add_reveal(scene, ob, by: str, count, frames: tuple[int, int], info: dict | 
         order = reveal_order(sphere, info["strips"], by=by, count=count)
     except ValueError as exc:
         raise ViewError(f"reveal: {exc}") from None
-    values = polygon_values(info["n_lon"], info["n_lat"], order).astype(np.float32)
+    order = np.asarray(order, np.float32)
     view = view_object_of(ob)
     if view is None:
         from .view_options import parse_parts
 
         view = make_parts_view(scene, ob, parse_parts("all", info["strips"]), info)
-    _write_face_attribute(ob.data, REVEAL_ATTR, "FLOAT", values)
+    write_pair(ob, info, REVEAL_ATTR, "FLOAT", order)
     mod = view.modifiers[FILTER_MOD]
     path = f'modifiers["{FILTER_MOD}"]["{reveal_socket_id(mod.node_group)}"]'
     if view.animation_data is None:
@@ -332,7 +424,7 @@ def add_reveal(scene, ob, by: str, count, frames: tuple[int, int], info: dict | 
     if view.animation_data.action is None:
         view.animation_data.action = bpy.data.actions.new(f"{view.name} reveal")
     # just above the largest value at the end, so every face is shown on the last frame
-    top = float(values.max()) + 1e-3
+    top = float(order.max()) + 1e-3
     bake._set_fcurve(view.animation_data.action, view, path, np.array([a, b]), np.array([0, top]))
     data = json.loads(view[VIEW_TAG])
     data["reveal"] = [by, count, a, b]
@@ -351,9 +443,11 @@ def remove_reveal(ob) -> None:
             bpy.data.actions.remove(action)
     mod = view.modifiers[FILTER_MOD]
     mod[reveal_socket_id(mod.node_group)] = SHOW_ALL
-    attr = ob.data.attributes.get(REVEAL_ATTR)
-    if attr is not None:
-        ob.data.attributes.remove(attr)
+    for name in (REVEAL_ATTR, REVEAL_ATTR + SECOND_SUFFIX):
+        attr = ob.data.attributes.get(name)
+        if attr is not None:
+            ob.data.attributes.remove(attr)
+    _write_split(ob.data)
 
 
 # ----------------------------------------------------------------------------- stills
@@ -544,7 +638,7 @@ def clear_views(ob) -> None:
         bpy.data.objects.remove(view)
         if ng is not None and ng.users == 0:
             bpy.data.node_groups.remove(ng)
-    for name in (PART_ATTR, TILE_ATTR, REVEAL_ATTR):
+    for name in VIEW_ATTRIBUTES:
         attr = ob.data.attributes.get(name)
         if attr is not None:
             ob.data.attributes.remove(attr)

@@ -136,7 +136,9 @@ def parse_reveal(text: str, option: str = "reveal") -> tuple[str, int | None]:
     if not count:
         return kind, None
     if not count.isdigit() or int(count) < 1:
-        raise ViewOptionError(f"{option}: the count after ':' must be an integer >= 1, got {text!r}")
+        raise ViewOptionError(
+            f"{option}: the count after ':' must be an integer >= 1, got {text!r}"
+        )
     return kind, int(count)
 
 
@@ -344,12 +346,14 @@ def read_view_options(args, strips: int | None = None, frames: int | None = None
 # ----------------------------------------------------------------------------- face order
 
 
-def polygon_values(n_lon: int, n_lat: int, per_triangle: np.ndarray) -> np.ndarray:
-    """Per-triangle values (SphereMesh.triangles() order) as per-polygon values (the
-    add-on's mesh: quads ring by ring, then the south and north fans).
+def polygon_pairs(n_lon: int, n_lat: int, per_triangle) -> tuple[np.ndarray, np.ndarray]:
+    """Per-triangle values (``SphereMesh.triangles()`` order) as two per-polygon arrays of
+    the add-on's mesh (quads ring by ring, then the south and north fans).
 
-    per_triangle : (M,) any dtype with M = 2 * n_lon * n_lat; returns (P,) with
-    P = n_lon * (n_lat + 1), each quad taking the value of its first triangle.
+    per_triangle : (M,) any dtype, M = 2 * n_lon * n_lat. Returns (first, second), each (P,)
+    with P = n_lon * (n_lat + 1): a quad (a, b, c, d) is split along a-c as in the core, and
+    gets its triangle (a, b, c) in ``first`` and (a, c, d) in ``second``; a pole triangle has
+    its value in both.
     """
     v = np.asarray(per_triangle)
     q = n_lon * (n_lat - 1)
@@ -357,17 +361,7 @@ def polygon_values(n_lon: int, n_lat: int, per_triangle: np.ndarray) -> np.ndarr
         raise ViewOptionError(
             f"mesh: {v.shape[0]} triangle values do not fit a {n_lon} x {n_lat} sphere"
         )
-    return np.concatenate([v[n_lon : n_lon + q], v[:n_lon], v[n_lon + 2 * q :]])
-
-
-def quads_agree(n_lon: int, n_lat: int, per_triangle: np.ndarray) -> bool:
-    """True when both triangles of every quad carry the same value."""
-    v = np.asarray(per_triangle)
-    q = n_lon * (n_lat - 1)
-    return bool(np.array_equal(v[n_lon : n_lon + q], v[n_lon + q : n_lon + 2 * q]))
-
-
-def polygon_triangle_counts(n_lon: int, n_lat: int) -> np.ndarray:
-    """(P,) int64: triangles per polygon of the add-on's mesh (2 for quads, 1 at the poles)."""
-    q = n_lon * (n_lat - 1)
-    return np.concatenate([np.full(q, 2), np.ones(2 * n_lon, np.int64)]).astype(np.int64)
+    poles = np.concatenate([v[:n_lon], v[n_lon + 2 * q :]])
+    first = np.concatenate([v[n_lon : n_lon + q], poles])
+    second = np.concatenate([v[n_lon + q : n_lon + 2 * q], poles])
+    return first, second

@@ -7,8 +7,8 @@ The eversion is baked once (shape keys, the default mesh of 47,042 vertices unle
 the parts shown (node-group booleans) and evaluates the view again through the depsgraph,
 reading its face count: what a user waits for after picking other parts. The baseline is
 one ``scene.frame_set`` to another frame with the eversion alone, reading its face count
-the same way (the cost of playing one frame). Goal: a switch costs at most 0.2 s on the default mesh and reuses the bake (no new
-shape keys, meshes or actions).
+the same way (the cost of playing one frame). Goal: a switch costs at most 0.2 s on the
+default mesh and reuses the bake (no new shape keys, meshes or actions).
 """
 
 from __future__ import annotations
