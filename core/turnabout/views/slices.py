@@ -79,8 +79,9 @@ def _band_mask(mesh: SphereMesh, bands: LatitudeBands, which: int) -> np.ndarray
     # half-open [lo, hi) so tiling bands share no vertex; the last band keeps the north pole
     inside = (lat >= lo) & ((lat < hi) | (hi >= np.pi / 2))
     if not inside.any():
-        raise ViewError("width", f"band {which} ({np.degrees(lo):.2f} to {np.degrees(hi):.2f} "
-                        "deg) holds no vertex of the mesh: widen it or use fewer bands")  # fmt: skip
+        span = f"{np.degrees(lo):.2f} to {np.degrees(hi):.2f} deg"
+        raise ViewError("width", f"band {which} ({span}) holds no vertex of the mesh: "
+                        "widen it or use fewer bands")  # fmt: skip
     return inside
 
 
