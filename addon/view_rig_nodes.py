@@ -245,11 +245,13 @@ def marker_object(scene, ob, co, frame, kind, point_id, up, size: float):
 
 
 def _glyphs(nodes, links):
-    """Output sockets of the three unit glyphs: dome (cone, tip up), bowl (cone, tip
-    down), saddle (an upright cross of two slabs), each centred on the origin."""
+    """Output sockets of the three unit glyphs, each standing on the origin and reaching
+    up to z = 1 (a level point's outer side faces up, so that is the side they stand on):
+    dome, a cone with its tip up; bowl, a cone with its tip on the point, opening up;
+    saddle, an upright cross of two slabs."""
     out = []
     for flip in (False, True):
-        cone = nodes.new("GeometryNodeMeshCone")
+        cone = nodes.new("GeometryNodeMeshCone")  # base on z = 0, tip at z = depth
         cone.inputs["Vertices"].default_value = 12
         cone.inputs["Radius Top"].default_value = 0.0
         cone.inputs["Radius Bottom"].default_value = 0.45
@@ -257,16 +259,18 @@ def _glyphs(nodes, links):
         if not flip:
             out.append(cone.outputs["Mesh"])
             continue
-        turn = nodes.new("GeometryNodeTransform")
+        turn = nodes.new("GeometryNodeTransform")  # rotate, then translate
         turn.inputs["Rotation"].default_value = (math.pi, 0.0, 0.0)
+        turn.inputs["Translation"].default_value = (0.0, 0.0, 1.0)
         links.new(cone.outputs["Mesh"], turn.inputs["Geometry"])
         out.append(turn.outputs[0])
     join = nodes.new("GeometryNodeJoinGeometry")
     for angle in (0.25 * math.pi, -0.25 * math.pi):
-        slab = nodes.new("GeometryNodeMeshCube")
+        slab = nodes.new("GeometryNodeMeshCube")  # centred on the origin
         slab.inputs["Size"].default_value = (1.0, 0.26, 0.6)
         turn = nodes.new("GeometryNodeTransform")
         turn.inputs["Rotation"].default_value = (0.0, 0.0, angle)
+        turn.inputs["Translation"].default_value = (0.0, 0.0, 0.3)
         links.new(slab.outputs["Mesh"], turn.inputs["Geometry"])
         links.new(turn.outputs[0], join.inputs[0])
     out.append(join.outputs[0])
