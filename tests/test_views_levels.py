@@ -300,10 +300,10 @@ def _reference_by_link_walk(p, f, up):
         total += index
         d = p[ring] - p[v]
         xy = np.stack([d @ e1, d @ e2], 1)
-        ang = [np.arctan2(np.cross(xy[i - 1], xy[i]), xy[i - 1] @ xy[i])
-               for i in range(len(ring))]  # fmt: skip
+        cross = [xy[i - 1, 0] * xy[i, 1] - xy[i - 1, 1] * xy[i, 0] for i in range(len(ring))]
+        ang = [np.arctan2(cross[i], xy[i - 1] @ xy[i]) for i in range(len(ring))]
         wind = round(sum(ang) / (2 * np.pi))
-        area = sum(np.cross(xy[i - 1], xy[i]) for i in range(len(ring)))
+        area = sum(cross)
         if (wind > 0) if wind != 0 else (area > 0):
             ups[v] = index
     return ups, total
