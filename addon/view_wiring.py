@@ -83,8 +83,6 @@ def apply_view_request(scene, ob, request, size=(320, 240)) -> list[str]:
     made, one line each. The stage camera is aimed at the stills when there are stills."""
     from types import SimpleNamespace
 
-    from . import headless
-
     if request is None or not request.any:
         return []
     info = vo.eversion_info(ob)
@@ -111,7 +109,23 @@ def apply_view_request(scene, ob, request, size=(320, 240)) -> list[str]:
         done.append(level_markers(context, ob, info, request.up))
     if request.stills:
         stills = vo.add_stills(scene, ob, info)
-        aspect = size[0] / size[1]
-        headless.add_stage(scene, vo.row_radius(stills, aspect), aspect)
+        stage_for_row(scene, stills, size[0] / size[1])
         done.append("stills: " + ", ".join(s.name for s in stills))
     return done
+
+
+def stage_for_row(scene, objects, aspect: float):
+    """Aim the stage camera at a row of objects along x and move the stage's lights out with
+    it (positions and sizes scaled, power by the square, so the row is lit as one ball)."""
+    from . import headless
+
+    radius = vo.row_radius(objects, aspect)
+    cam = headless.add_stage(scene, radius, aspect)
+    scale = max(radius, 1.0)  # the stage's lights are placed for a ball of radius 1
+    for name in (headless.LIGHT_NAME, headless.FILL_NAME):
+        light = bpy.data.objects.get(name)
+        if light is not None:
+            light.location = [scale * c for c in light.location]
+            light.data.size *= scale
+            light.data.energy *= scale**2
+    return cam

@@ -234,12 +234,12 @@ def test_render_of_the_stills_shows_one_blob_per_key_moment(tmp_path):
     from turnabout.eversion import Controls
     from turnabout.views.reveal import key_moments
 
-    from turnabout_blender import headless
     from turnabout_blender import view_objects as vo
+    from turnabout_blender.view_wiring import stage_for_row
 
     ob = _build(frames=24, size=(480, 72))
     stills = vo.add_stills(bpy.context.scene, ob, gap=0.6)
-    headless.add_stage(bpy.context.scene, vo.row_radius(stills, 480 / 72), 480 / 72)
+    stage_for_row(bpy.context.scene, stills, 480 / 72)
     img = _render(tmp_path / "stills.png", 1)
     _keep_image(tmp_path / "stills.png", "views_stills.png")
     columns = (img[..., 3] > 0.5).any(axis=0)
