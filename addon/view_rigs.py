@@ -125,16 +125,24 @@ def baked_triangles(ob) -> np.ndarray:
     return mesh.triangles()
 
 
-def baked_positions(scene, ob, vertex_ids=None, progress=None) -> np.ndarray:
-    """Evaluated vertex positions (object space) of every baked frame.
+def baked_positions(scene, ob, vertex_ids=None, progress=None, evaluated=False) -> np.ndarray:
+    """Vertex positions (object space) of every baked frame.
 
     Returns (F, V, 3) float32, or (F, len(vertex_ids), 3) when ``vertex_ids`` is given.
-    The scene frame is restored.
+    Read straight from the stored shapes when the bake is there as absolute shape keys
+    (blended between keys as Blender does) or as its point-cache file; otherwise, or with
+    ``evaluated``, through the depsgraph frame by frame (the scene frame is restored).
     """
     start, count = baked_frames(ob)
+    sel = None if vertex_ids is None else np.asarray(vertex_ids, np.int64)
+    if not evaluated:
+        stored = _stored_positions(ob, count, sel)
+        if stored is not None:
+            if progress is not None:
+                progress(count, count)
+            return stored
     n = len(ob.data.vertices)
     keep = scene.frame_current
-    sel = None if vertex_ids is None else np.asarray(vertex_ids, np.int64)
     out = np.empty((count, n if sel is None else len(sel), 3), np.float32)
     buf = np.empty(n * 3, np.float32)
     try:
@@ -149,6 +157,37 @@ def baked_positions(scene, ob, vertex_ids=None, progress=None) -> np.ndarray:
     finally:
         scene.frame_set(keep)
     return out
+
+
+def _stored_positions(ob, count: int, sel):
+    """Every frame from the bake's own storage, or None when it is not as the bake left it."""
+    from .bake import MODIFIER_NAME, PROP_TAG, key_offsets_for
+
+    n = len(ob.data.vertices)
+    data = json.loads(ob[PROP_TAG])
+    key = ob.data.shape_keys
+    if data.get("mode") == "SHAPE_KEYS" and key is not None and not key.use_relative:
+        offsets = key_offsets_for(count, int(data.get("key_step", 1)))
+        blocks = key.key_blocks
+        if len(blocks) != len(offsets):
+            return None
+        m = n if sel is None else len(sel)
+        shapes = np.empty((len(blocks), m, 3), np.float32)
+        buf = np.empty(n * 3, np.float32)
+        for j, kb in enumerate(blocks):
+            kb.points.foreach_get("co", buf)
+            shapes[j] = buf.reshape(-1, 3) if sel is None else buf.reshape(-1, 3)[sel]
+        if len(offsets) == count:
+            return shapes
+        return rig_math.blend_keys(shapes, offsets, count)
+    mod = ob.modifiers.get(MODIFIER_NAME)
+    if data.get("mode") == "POINT_CACHE" and mod is not None and mod.type == "MESH_CACHE":
+        try:
+            cache = rig_math.read_pc2(bpy.path.abspath(mod.filepath), n, count)
+        except (OSError, RigError):
+            return None
+        return np.array(cache if sel is None else cache[:, sel], np.float32)
+    return None
 
 
 # ----------------------------------------------------------------------------- band rig

@@ -380,3 +380,21 @@ def _levels_with_kind(kind):
         signed_count=np.array([1, 1, 1, 1]),
         up=np.array([0.0, 0.0, 1.0]),
     )
+
+
+@pytest.mark.parametrize("mode, key_step", [("SHAPE_KEYS", 3), ("POINT_CACHE", 1)])
+@pytest.mark.usefixtures("blank")
+def test_stored_frames_read_back_as_the_depsgraph_evaluates_them(tmp_path, mode, key_step):
+    from turnabout.eversion import Controls
+    from turnabout.mesh import uniform_sphere_mesh
+
+    from turnabout_blender import bake, view_rigs
+
+    plan = bake.plan_bake(Controls(), 11, 4, key_step, uniform_sphere_mesh(64, 16), mode)
+    scene = bpy.context.scene
+    ob = bake.bake_eversion(scene, plan, cache_dir=str(tmp_path))
+    ids = np.array([0, 5, 700, 1025])
+    fast = view_rigs.baked_positions(scene, ob, ids)
+    slow = view_rigs.baked_positions(scene, ob, ids, evaluated=True)
+    assert fast.shape == slow.shape == (11, 4, 3)
+    assert np.abs(fast - slow).max() <= 1e-5

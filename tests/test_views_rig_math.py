@@ -121,3 +121,25 @@ def test_text_corner_is_inside_the_frame_at_the_depth():
     assert origin[2] == -0.5
     assert -0.25 < origin[0] < 0 and -0.1875 < origin[1] < 0  # lower-left quarter at z=-0.5
     assert height == pytest.approx(0.375 / 12)
+
+
+def test_blend_keys_is_linear_between_stored_frames():
+    shapes = np.array([[[0.0, 0, 0]], [[4.0, 0, 0]], [[4.0, 8, 0]]])
+    got = rig_math.blend_keys(shapes, np.array([0, 4, 6]), 7)
+    assert got[:, 0, 0].tolist() == [0, 1, 2, 3, 4, 4, 4]
+    assert got[:, 0, 1].tolist() == [0, 0, 0, 0, 0, 4, 8]
+
+
+def test_read_pc2_reads_what_the_layout_says_and_checks_sizes(tmp_path):
+    # PC2 layout (common practice): signature, version, points, start, rate, samples, data
+    data = np.arange(2 * 3 * 3, dtype="<f4").reshape(2, 3, 3)
+    path = tmp_path / "x.pc2"
+    head = b"POINTCACHE2\0" + np.array([1, 3], "<i4").tobytes()
+    head += np.array([0.0, 1.0], "<f4").tobytes() + np.array([2], "<i4").tobytes()
+    path.write_bytes(head + data.tobytes())
+    assert np.array_equal(rig_math.read_pc2(str(path), 3, 2), data)
+    with pytest.raises(RigError, match="holds 2 x 3 points, expected 2 x 4"):
+        rig_math.read_pc2(str(path), 4, 2)
+    path.write_bytes(b"NOTACACHE" + bytes(40))
+    with pytest.raises(RigError, match="not a PC2 file"):
+        rig_math.read_pc2(str(path), 3, 2)

@@ -191,6 +191,48 @@ def rotation_z_to(up) -> np.ndarray:
     return np.array([a, b, c_])
 
 
+# ----------------------------------------------------------------------------- stored frames
+
+
+def blend_keys(shapes: np.ndarray, offsets: np.ndarray, count: int) -> np.ndarray:
+    """Every frame from shapes stored at some frames, blended linearly between them.
+
+    shapes : (K, V, 3) at frame offsets ``offsets`` (K,) int, increasing, the first 0 and
+    the last ``count - 1``. Returns (count, V, 3) in the dtype of ``shapes``.
+    """
+    offsets = np.asarray(offsets, np.int64)
+    f = np.arange(count)
+    j = np.clip(np.searchsorted(offsets, f, side="right") - 1, 0, len(offsets) - 2)
+    w = ((f - offsets[j]) / (offsets[j + 1] - offsets[j])).astype(shapes.dtype)[:, None, None]
+    return (1 - w) * shapes[j] + w * shapes[j + 1]
+
+
+PC2_SIGNATURE = b"POINTCACHE2\0"
+
+
+def read_pc2(path: str, n_points: int, n_samples: int) -> np.ndarray:
+    """The samples of a PC2 point cache, checked against the expected sizes.
+
+    Layout (little-endian, common practice): 12-byte signature, int32 version, int32
+    points, float32 start, float32 rate, int32 samples, then float32 xyz per point per
+    sample. Returns a read-only (n_samples, n_points, 3) float32 memory map.
+    """
+    with open(path, "rb") as fh:
+        head = fh.read(32)
+    if len(head) < 32 or head[:12] != PC2_SIGNATURE:
+        raise RigError(f"point cache: {path!r} is not a PC2 file")
+    points, samples = (
+        int(np.frombuffer(head[16:20], "<i4")[0]),
+        int(np.frombuffer(head[28:32], "<i4")[0]),
+    )
+    if (points, samples) != (n_points, n_samples):
+        raise RigError(
+            f"point cache: {path!r} holds {samples} x {points} points, expected "
+            f"{n_samples} x {n_points}"
+        )
+    return np.memmap(path, "<f4", "r", offset=32, shape=(n_samples, n_points, 3))
+
+
 # ----------------------------------------------------------------------------- highlight
 
 
