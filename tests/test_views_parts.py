@@ -148,6 +148,28 @@ def test_parts_partition_the_faces_and_the_symmetry_permutes_them(mesh, maps):
     assert np.array_equal(lab[fmap[N]], swapped)
 
 
+def test_labels_follow_the_definition_on_the_round_sphere(mesh, frames):
+    # independent of the parameter bookkeeping: the azimuth and height of each face's centre
+    # on the starting unit sphere, away from the parts' edges by more than a face
+    p = surface_parts(mesh, N)
+    c = frames[0][mesh.triangles()].mean(axis=1)
+    phi = np.arctan2(c[:, 1], c[:, 0])
+    lat = np.arctan2(c[:, 2], np.hypot(c[:, 0], c[:, 1]))
+    period = 2 * np.pi / N
+    u = (phi + period / 4) / period
+    k = np.floor(u).astype(int) % N
+    guide = (u - np.floor(u)) < 0.5
+    expect = np.where(guide, k, N + k)
+    expect = np.where(lat < -WAVE_END_LAT, 2 * N, np.where(lat > WAVE_END_LAT, 2 * N + 1, expect))
+    gap_t = np.diff(mesh.theta).max()
+    gap_l = np.diff(mesh.lat).max()
+    edge_t = np.abs(((u * 2) % 1 + 0.5) % 1 - 0.5) * period / 2  # to the nearest strip edge
+    clear = (edge_t > gap_t) & (np.abs(np.abs(lat) - WAVE_END_LAT) > gap_l)
+    clear |= np.abs(lat) > WAVE_END_LAT + gap_l
+    assert clear.mean() > 0.8
+    assert np.array_equal(p.label[clear], expect[clear])
+
+
 def _areas(P, faces):
     a, b, c = P[faces[:, 0]], P[faces[:, 1]], P[faces[:, 2]]
     return 0.5 * np.linalg.norm(np.cross(b - a, c - a), axis=1)

@@ -164,16 +164,17 @@ def _lat_centroid(lat_corners: np.ndarray) -> np.ndarray:
     Written as (2 x + y) / 3 with x the repeated latitude, so that negating every latitude
     negates the result exactly (the north half of the default mesh is the south half negated).
     """
-    s = np.sort(lat_corners, axis=1)
-    rep = s[:, 1]
-    other = np.where(s[:, 0] == s[:, 1], s[:, 2], s[:, 0])
+    a, b, c = lat_corners[:, 0], lat_corners[:, 1], lat_corners[:, 2]
+    rep = np.where(a == b, a, c)  # the value that appears twice
+    other = np.where(a == b, c, np.where(a == c, b, a))
     return (2.0 * rep + other) / 3.0
 
 
 def face_centroids(mesh: SphereMesh, strips: int):
     """Parameter centroids of the faces, in one strip's coordinates.
 
-    Returns (strip (M,) int64, x (M,) float64, lat (M,) float64): the face's longitude
+    Returns (strip (M,) int64, x (M,) float64, lat (M,) float64, ring (M, 3) int64 ring
+    indices of the corners, 0 at the south pole): the face's longitude
     centroid is strip * P + x, with x measured from theta = 0 on the first strip's samples
     (so every strip gets bitwise the same x: the turns act exactly); pole corners count
     only in latitude.
@@ -184,24 +185,28 @@ def face_centroids(mesh: SphereMesh, strips: int):
     ring, col = _face_rings_and_columns(mesh, faces)
     on_ring = col >= 0
     # the gap (i, i+1 mod n) each face spans: i is the smaller column unless it wraps
-    lo = np.where(on_ring, col, n).min(axis=1)
-    hi = np.where(on_ring, col, -1).max(axis=1)
+    c_lo = np.where(on_ring, col, n)
+    c_hi = np.where(on_ring, col, -1)
+    lo = np.minimum(np.minimum(c_lo[:, 0], c_lo[:, 1]), c_lo[:, 2])
+    hi = np.maximum(np.maximum(c_hi[:, 0], c_hi[:, 1]), c_hi[:, 2])
     anchor = np.where((lo == 0) & (hi == n - 1), n - 1, lo)
     k = anchor // per
     local = (col - k[:, None] * per) % n  # in [0, per]
     period = 2 * np.pi / strips
     ext = np.append(mesh.theta[:per], mesh.theta[0] + period)
     th = ext[np.where(on_ring, local, 0)]
-    x = np.where(on_ring, th, 0.0).sum(axis=1) / on_ring.sum(axis=1)
+    th = np.where(on_ring, th, 0.0)
+    count = on_ring.astype(np.int64)
+    x = (th[:, 0] + th[:, 1] + th[:, 2]) / (count[:, 0] + count[:, 1] + count[:, 2])
     la = np.concatenate([[-np.pi / 2], mesh.lat, [np.pi / 2]])[ring]
-    return k, x, _lat_centroid(la)
+    return k, x, _lat_centroid(la), ring
 
 
 def surface_parts(mesh: SphereMesh, strips: int) -> SurfaceParts:
     """Guide strips, wave strips, caps and the fundamental piece of ``mesh``'s faces."""
     strips = check_strips(strips)
     period = 2 * np.pi / strips
-    k, x, lat = face_centroids(mesh, strips)
+    k, x, lat, ring = face_centroids(mesh, strips)
     u = (x + period / 4) / period  # periods start at -P/4
     shift = np.floor(u).astype(np.int64)
     in_period = u - shift
@@ -209,9 +214,7 @@ def surface_parts(mesh: SphereMesh, strips: int) -> SurfaceParts:
     label = np.where(in_period < 0.5, per_idx, strips + per_idx)
     label = np.where(lat < -WAVE_END_LAT, 2 * strips, label)
     label = np.where(lat > WAVE_END_LAT, 2 * strips + 1, label)
-    faces = mesh.triangles()
-    ring, _ = _face_rings_and_columns(mesh, faces)
-    south = 2 * ring.sum(axis=1) < 3 * (mesh.n_lat + 1)
+    south = 2 * (ring[:, 0] + ring[:, 1] + ring[:, 2]) < 3 * (mesh.n_lat + 1)
     return SurfaceParts(
         strips=strips,
         label=label.astype(np.int32),
@@ -305,8 +308,17 @@ def _row_lookup(ref: np.ndarray, query: np.ndarray) -> np.ndarray:
 def symmetry_face_maps(mesh: SphereMesh, strips: int) -> np.ndarray:
     """(2n, M) int64: row g maps face f (``mesh.triangles()`` order) to its image under M_g."""
     vmap = symmetry_vertex_maps(mesh, strips)
+    n = vmap.shape[0] // 2
     faces = mesh.triangles().astype(np.int64)
-    return np.stack([_row_lookup(faces, vm[faces]) for vm in vmap])
+    # the generators R_1 and H_0 by lookup; R_k = R_1^k and H_k = R_k H_0 by composition
+    turn = _row_lookup(faces, vmap[1][faces])
+    half = _row_lookup(faces, vmap[n][faces])
+    out = np.empty((2 * n, faces.shape[0]), np.int64)
+    out[0] = np.arange(faces.shape[0])
+    for k in range(1, n):  # the group's elements, not the faces
+        out[k] = turn[out[k - 1]]
+    out[n:] = out[:n][:, half]
+    return out
 
 
 def extract(positions, faces, face_mask):

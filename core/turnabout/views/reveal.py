@@ -66,7 +66,7 @@ def reveal_order(mesh: SphereMesh, strips: int, by: str = "band", count: int | N
         or not 1 <= int(count) <= MAX_BANDS
     ):
         raise ViewError("count", f"must be an integer from 1 to {MAX_BANDS}, got {count!r}")
-    _, _, lat = face_centroids(mesh, strips)
+    _, _, lat, _ = face_centroids(mesh, strips)
     u = np.clip((lat + np.pi / 2) / np.pi, 0.0, 1.0)
     if count is None:
         return u
