@@ -81,6 +81,18 @@ def test_every_eversion_frame_has_signed_count_one(eversion_frames, which):
     )  # fmt: skip
 
 
+@pytest.mark.slow
+def test_every_frame_of_the_default_build_has_signed_count_one():
+    # Hopf 1926, on the baked default eversion (480 float32 frames)
+    from turnabout.eversion import build
+
+    ev = build(Controls())
+    lp = level_points(ev.positions, ev.faces, (0.0, 0.0, 1.0))
+    assert lp.signed_count.shape == (ev.positions.shape[0],)
+    np.testing.assert_array_equal(lp.signed_count, 1)
+    _banchoff_consistent(lp)
+
+
 def test_signed_count_agrees_with_the_checkers_gauss_map_degree(eversion_frames):
     # two independent polyhedral routes to Hopf's degree: vertex-normal solid angles
     # (checker) and level points (here)
