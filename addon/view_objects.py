@@ -335,7 +335,7 @@ def view_object_of(ob):
     """The parts/reveal view object of eversion ``ob``, or None."""
     for other in bpy.data.objects:
         tag = other.get(VIEW_TAG)
-        if tag and other.data is ob.data:
+        if tag and other.type == "MESH":
             data = json.loads(tag)
             if data.get("kind") == "parts" and data.get("source") == ob.name:
                 return other
@@ -377,9 +377,25 @@ def make_parts_view(scene, ob, choice: PartsChoice, info: dict | None = None):
             f"parts: chosen for {choice.strips} strips but {ob.name!r} has {info['strips']}"
         )
     view = view_object_of(ob)
-    if view is None:
+    if view is None or view.data is not ob.data or PART_ATTR not in ob.data.attributes:
         label, tile = face_tables(ob, info)  # the core work, before any data is made
         ensure_part_attributes(ob, info, label, tile)
+    n = info["strips"]
+    if view is not None and view.data is not ob.data:  # the eversion was re-built
+        old, view.data = view.data, ob.data
+        bake._free_mesh(old)
+        for mod in [m for m in view.modifiers if m.type == "MESH_CACHE"]:
+            view.modifiers.remove(mod)
+        _copy_cache_modifier(ob, view)
+        if len(view.modifiers) > 1 and view.modifiers[-1].type == "MESH_CACHE":
+            view.modifiers.move(len(view.modifiers) - 1, 0)
+        mod = view.modifiers[FILTER_MOD]
+        if len(mod.node_group.nodes[N_PARTS].index_switch_items) != 2 * n + 2:
+            old_group = mod.node_group
+            mod.node_group = _new_filter_group(f"{view.name} filter", 2 * n + 2, 2 * n)
+            if old_group.users == 0:
+                bpy.data.node_groups.remove(old_group)
+    if view is None:
         view = bpy.data.objects.new(f"{ob.name} view", ob.data)
         for coll in ob.users_collection:
             coll.objects.link(view)
@@ -387,7 +403,6 @@ def make_parts_view(scene, ob, choice: PartsChoice, info: dict | None = None):
         view[VIEW_TAG] = json.dumps({"kind": "parts", "source": ob.name, "parts": "all"})
         _copy_cache_modifier(ob, view)
         mod = view.modifiers.new(FILTER_MOD, "NODES")
-        n = info["strips"]
         mod.node_group = _new_filter_group(f"{view.name} filter", 2 * n + 2, 2 * n)
     set_choice(view, choice)
     _hide_source(ob)

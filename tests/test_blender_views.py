@@ -288,7 +288,8 @@ def test_height_stripes_follow_world_height_on_the_outer_side(tmp_path):
     got_b = img[..., 2] > img[..., 1]
     # away from the silhouette and the band edges (a pixel's footprint), the colours match
     frac = np.mod(z / spacing, 1.0)
-    clear = seen & np.isfinite(z) & (np.abs(frac - 0.5) > 0.08) & (np.minimum(frac, 1 - frac) > 0.08)
+    clear = seen & np.isfinite(z) & (np.abs(frac - 0.5) > 0.08)
+    clear &= np.minimum(frac, 1 - frac) > 0.08
     clear &= img[..., 3] > 0.99
     assert clear.sum() > 1000
     assert (got_b[clear] == want_b[clear]).mean() > 0.97
@@ -441,6 +442,72 @@ def test_panel_operators_make_and_clear_the_views():
     assert not ob.hide_render and not ob.hide_viewport
     assert not [a.name for a in ob.data.attributes if a.name.startswith("turnabout_")
                 and a.name != "turnabout_guide"]  # fmt: skip
+
+
+@pytest.mark.usefixtures("blank")
+def test_a_rebuilt_eversion_keeps_its_view_on_the_new_bake_without_orphans():
+    from turnabout.views.parts import surface_parts
+
+    from blender_support import orphans, set_small_build
+
+    s = bpy.context.scene.turnabout
+    set_small_build(s, frames=6, n_lon=64, n_lat=16)
+    s.mesh_spacing = "EVEN"
+    bpy.ops.turnabout.add_eversion()
+    ob = bpy.context.active_object
+    bpy.context.scene.turnabout_views.parts = "wave:1 caps:north"
+    assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
+    s.strips, s.mesh_lon = 10, 80  # ten strips need a multiple of ten longitudes
+    bpy.context.view_layer.objects.active = ob
+    assert bpy.ops.turnabout.rebuild() == {"FINISHED"}
+    bpy.context.scene.turnabout_views.parts = "wave:9 caps:north"
+    assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
+    view = bpy.data.objects["Eversion view"]
+    assert view.data is ob.data and orphans() == []
+    from turnabout_blender import view_objects as vo
+
+    info = vo.eversion_info(ob)
+    mask = surface_parts(vo.sphere_of(ob, info), 10).select(waves=(9,), caps=("north",))
+    assert len(_evaluated(view, 4)[1]) == int(mask.sum())
+
+
+@pytest.mark.usefixtures("blank")
+def test_undo_takes_a_parts_view_back():
+    ob = _build(frames=4)
+    bpy.context.view_layer.objects.active = ob
+    bpy.ops.ed.undo_push(message="baked")
+    before = _data_counts()
+    assert bpy.ops.turnabout.show_parts(parts="guide:2") == {"FINISHED"}
+    bpy.ops.ed.undo_push(message="parts shown")
+    assert _data_counts() != before
+    bpy.ops.ed.undo()
+    assert _data_counts() == before
+    assert not bpy.data.objects["Eversion"].hide_render
+
+
+@pytest.mark.usefixtures("blank")
+def test_slice_and_level_point_buttons_call_the_rigs_and_clear_views_removes_them(tmp_path):
+    ob = _build(frames=6, size=(64, 48), samples=2)
+    bpy.context.view_layer.objects.active = ob
+    before = _data_counts()
+    s = bpy.context.scene.turnabout_views
+    s.slice_count, s.slice_which = 5, 2
+    s.slice_image = str(tmp_path / "band.png")
+    assert bpy.ops.turnabout.show_parts(parts="guide") == {"FINISHED"}  # hides the eversion
+    assert bpy.ops.turnabout.add_slice_rig() == {"FINISHED"}
+    assert bpy.context.scene.camera.name == "Eversion band top"
+    assert bpy.ops.turnabout.render_slices() == {"FINISHED"}
+    from turnabout_blender import headless
+
+    img = headless.read_png(str(tmp_path / "band.png"))
+    assert img.shape[1] == 2 * 64 and (img[..., 3] > 0.5).sum() > 20
+    assert bpy.ops.turnabout.add_level_points() == {"FINISHED"}
+    assert "turnabout_signed_count" in ob
+    assert ob.hide_viewport  # still hidden behind its view after the rigs read it
+    assert bpy.ops.turnabout.clear_views() == {"FINISHED"}
+    after = _data_counts()
+    for kind in KINDS:
+        assert after[kind] == before[kind], kind
 
 
 # ----------------------------------------------------------------------------- command line
