@@ -4,13 +4,18 @@ How the views share the one bake:
 
 * **Parts / reveal**: one *view object* per eversion that uses the eversion's own mesh
   datablock (``view.data is ob.data``), so the same shape keys play it (a point-cache bake
-  gets a copy of the Mesh Cache modifier reading the same file). Three face attributes are
-  written once on that mesh from the core: ``turnabout_part`` (int, the part label),
+  gets a copy of the Mesh Cache modifier reading the same file). Face attributes written
+  once on that mesh from the core: ``turnabout_part`` (int, the part label),
   ``turnabout_tile`` (int, which copy of the fundamental piece) and, for a reveal,
-  ``turnabout_reveal`` (float, the reveal value of each face). A geometry-nodes modifier
-  with the view's own small node group deletes the faces not chosen: two Index Switch
-  nodes (one boolean per part label, one per tile) and a comparison of the reveal value
-  with a keyframed *Reveal* input. Switching a view only changes those booleans.
+  ``turnabout_reveal`` (float, ``reveal_order``). The core's faces are triangles and the
+  mesh has quads: each attribute has a ``_b`` twin holding the value of a quad's second
+  triangle (a, c, d), ``turnabout_split`` marks the quads whose halves differ and
+  ``turnabout_corner_d`` (a corner attribute) marks every quad's fourth corner. A
+  geometry-nodes modifier with the view's own small node group cuts the split quads along
+  a-c (as the core does), lets each half read its own value (by whether it holds corner d)
+  and deletes the faces not chosen: two Index Switch nodes (one boolean per part label, one
+  per tile) and a comparison of the reveal value with a keyframed *Reveal* input.
+  Switching a view only changes those booleans.
 * **Stills**: a shape-key bake evaluates per mesh datablock at the scene's time, so a
   per-object time offset would need a second copy of every key. Each key moment is taken
   instead as its own small static mesh (``bpy.data.meshes.new_from_object`` of the
@@ -31,8 +36,6 @@ import numpy as np
 
 from . import bake
 from .view_options import (
-    STRIPE_A,
-    STRIPE_B,
     PartsChoice,
     ViewOptionError,
     polygon_pairs,
@@ -51,13 +54,10 @@ VIEW_TAG = "turnabout_view"  # on view objects: JSON {"kind", "source", ...}
 HIDDEN_TAG = "turnabout_hidden_by_view"  # on the eversion while a view hides it
 FILTER_MOD = "Turnabout view"
 REVEAL_INPUT = "Reveal"
-STILLS_SUFFIX = " stills"
 SHOW_ALL = 1.5  # a Reveal input above every reveal value (they lie in [0, 1])
 
 # node names in the filter group and in the material
 N_PARTS, N_TILES = "Parts shown", "Tiles shown"
-N_STRIPES = "Height stripes"
-N_STRIPE_A, N_STRIPE_B, N_STRIPE_SCALE = "Stripe colour A", "Stripe colour B", "Stripe spacing"
 
 
 # a view that cannot be made: the same error as a bad view option (one name for both)
@@ -213,8 +213,10 @@ def ensure_part_attributes(ob, info: dict, label: np.ndarray, tile: np.ndarray) 
         first, second = polygon_pairs(info["n_lon"], info["n_lat"], values)
         have = _read_attribute(me, name, np.int32)
         have_b = _read_attribute(me, name + SECOND_SUFFIX, np.int32)
-        if have is None or have_b is None or not (
-            np.array_equal(have, first) and np.array_equal(have_b, second)
+        if (
+            have is None
+            or have_b is None
+            or not (np.array_equal(have, first) and np.array_equal(have_b, second))
         ):
             write_pair(ob, info, name, "INT", values)
 
@@ -465,185 +467,13 @@ def remove_reveal(ob) -> None:
     _write_split(ob.data)
 
 
-# ----------------------------------------------------------------------------- stills
-
-
-def still_frames(info: dict, moments) -> list[tuple[str, int]]:
-    """Scene frames of the key moments ``[(name, t)]``, t in [0, 1] of the motion."""
-    first, frames = int(info["frame_start"]), int(info["frames"])
-    return [(name, first + int(round(float(t) * (frames - 1)))) for name, t in moments]
-
-
-def stills_collection(ob):
-    return bpy.data.collections.get(ob.name + STILLS_SUFFIX)
-
-
-def add_stills(scene, ob, info: dict | None = None, gap: float = 0.3):
-    """A row of static stills of ``ob`` (or of its view) at the key moments, left to right
-    in time along +x, centred on the eversion; hides the moving surface. Returns the objects.
-    """
-    from turnabout.eversion import Controls
-    from turnabout.views.reveal import key_moments
-
-    info = info or eversion_info(ob)
-    c = info["controls"]
-    controls = Controls(strips=c["strips"], depth=c["depth"], timing=c["timing"])
-    moments = still_frames(info, key_moments(controls))
-    if not moments:
-        raise ViewError("stills: the core gives no key moments for these controls")
-    remove_stills(ob)
-    view = view_object_of(ob)
-    source = view if view is not None else ob
-    keep = scene.frame_current
-    depsgraph = bpy.context.evaluated_depsgraph_get()
-    meshes = []
-    try:
-        for name, frame in moments:
-            scene.frame_set(frame)
-            me = bpy.data.meshes.new_from_object(source.evaluated_get(depsgraph))
-            me.name = f"{ob.name} {name}"
-            meshes.append((name, frame, me))
-    finally:
-        scene.frame_set(keep)
-    radius = 0.0
-    for _, _, me in meshes:
-        co = np.empty(len(me.vertices) * 3, np.float32)
-        me.vertices.foreach_get("co", co)
-        if co.size:
-            radius = max(radius, float(np.abs(co.reshape(-1, 3)[:, :2]).max()))
-    pitch = 2.0 * max(radius, 1e-3) * (1.0 + gap)
-    coll = bpy.data.collections.new(ob.name + STILLS_SUFFIX)
-    scene.collection.children.link(coll)
-    out = []
-    base = ob.matrix_world.translation
-    for i, (name, frame, me) in enumerate(meshes):
-        still = bpy.data.objects.new(f"{ob.name} {name}", me)
-        coll.objects.link(still)
-        still.location = (base.x + (i - (len(meshes) - 1) / 2) * pitch, base.y, base.z)
-        still[VIEW_TAG] = json.dumps(
-            {"kind": "still", "source": ob.name, "moment": name, "frame": frame}
-        )
-        out.append(still)
-    _hide_source(ob)
-    if view is not None:
-        view.hide_render = view.hide_viewport = True
-    return out
-
-
-def remove_stills(ob) -> None:
-    coll = stills_collection(ob)
-    if coll is None:
-        return
-    for still in list(coll.objects):
-        me = still.data
-        bpy.data.objects.remove(still)
-        if me is not None and me.users == 0:
-            bpy.data.meshes.remove(me)
-    bpy.data.collections.remove(coll)
-    view = view_object_of(ob)
-    if view is not None:
-        view.hide_render = view.hide_viewport = False
-    else:
-        _show_source(ob)
-
-
-def row_radius(objects, aspect: float) -> float:
-    """The radius to give the stage camera (headless.add_stage) so a row of objects along x,
-    centred on the origin, fits the frame of the given aspect (width / height)."""
-    import math
-
-    xs, r = [], 0.0
-    for o in objects:
-        co = np.empty(len(o.data.vertices) * 3, np.float32)
-        o.data.vertices.foreach_get("co", co)
-        if co.size:
-            p = co.reshape(-1, 3)
-            r = max(r, float(np.sqrt((p**2).sum(axis=1)).max()))
-        xs.append(abs(o.location.x))
-    half_width = (max(xs) if xs else 0.0) + r
-    # add_stage: 50 mm lens, 36 mm sensor along the longer side (Blender's AUTO fit)
-    short = math.atan(18.0 / 50.0 / max(aspect, 1.0 / aspect))
-    long_ = math.atan(18.0 / 50.0)
-    wide = half_width * math.sin(short) / (1.08 * math.tan(long_ if aspect >= 1 else short))
-    return max(r, wide)
-
-
-# ----------------------------------------------------------------------------- stripes
-
-
-def set_stripes(mat, on: bool, spacing: float = 0.25, colours=(STRIPE_A, STRIPE_B)) -> None:
-    """Height stripes on the outer side of our two-sided material, or back to plain.
-
-    World height z (Geometry > Position) over ``spacing`` -> fraction -> below 0.5 picks
-    colour A, else B; one A and one B band every ``spacing`` units. The inner side keeps
-    its colour.
-    """
-    from . import look
-
-    if not (spacing > 0 and np.isfinite(spacing)):
-        raise ViewError(f"stripe spacing: must be a number > 0, got {spacing}")
-    nodes = mat.node_tree.nodes
-    links = mat.node_tree.links
-    if look.N_SIDES not in nodes or look.N_OUTER not in nodes:
-        raise ViewError(f"material: {mat.name!r} is not Turnabout's two-sided material")
-    sides, outer = nodes[look.N_SIDES], nodes[look.N_OUTER]
-    for n in [n for n in nodes if n.name.startswith(N_STRIPES) or n.name.startswith("Stripe ")]:
-        nodes.remove(n)
-    if not on:
-        links.new(outer.outputs[0], sides.inputs[6])
-        return
-    geo = nodes.new("ShaderNodeNewGeometry")
-    geo.name = f"{N_STRIPES} position"
-    xyz = nodes.new("ShaderNodeSeparateXYZ")
-    xyz.name = f"{N_STRIPES} height"
-    scale = nodes.new("ShaderNodeMath")
-    scale.name = N_STRIPE_SCALE
-    scale.operation = "DIVIDE"
-    scale.inputs[1].default_value = float(spacing)
-    frac = nodes.new("ShaderNodeMath")
-    frac.name = f"{N_STRIPES} fraction"
-    frac.operation = "FRACT"
-    step = nodes.new("ShaderNodeMath")
-    step.name = f"{N_STRIPES} step"
-    step.operation = "GREATER_THAN"
-    step.inputs[1].default_value = 0.5
-    a, b = nodes.new("ShaderNodeRGB"), nodes.new("ShaderNodeRGB")
-    a.name, b.name = N_STRIPE_A, N_STRIPE_B
-    a.outputs[0].default_value = tuple(colours[0])
-    b.outputs[0].default_value = tuple(colours[1])
-    mix = nodes.new("ShaderNodeMix")
-    mix.name = f"{N_STRIPES} mix"
-    mix.data_type = "RGBA"
-    links.new(geo.outputs["Position"], xyz.inputs[0])
-    links.new(xyz.outputs["Z"], scale.inputs[0])
-    links.new(scale.outputs[0], frac.inputs[0])
-    links.new(frac.outputs[0], step.inputs[0])
-    links.new(step.outputs[0], mix.inputs[0])
-    links.new(a.outputs[0], mix.inputs[6])
-    links.new(b.outputs[0], mix.inputs[7])
-    links.new(mix.outputs[2], sides.inputs[6])
-    x0, y0 = sides.location.x - 1400, sides.location.y + 400
-    for i, n in enumerate((geo, xyz, scale, frac, step, a, mix)):
-        n.location = (x0 + 200 * i, y0)
-    b.location = (x0 + 1000, y0 - 220)
-
-
-def eversion_material(ob):
-    from . import look
-
-    mats = [m for m in ob.data.materials if m is not None and look.LOOK_TAG in m]
-    if not mats:
-        raise ViewError(
-            f"material: {ob.name!r} has no two-sided material; apply the two-sided look first"
-        )
-    return mats[0]
-
-
 # ----------------------------------------------------------------------------- clearing
 
 
 def clear_views(ob) -> None:
     """Remove the view object, its node group and action, the stills; show ``ob`` again."""
+    from .view_stills import remove_stills
+
     remove_stills(ob)
     view = view_object_of(ob)
     if view is not None:

@@ -31,8 +31,7 @@ CAP_NAMES = ("south", "north")
 PART_WORDS = ("all", "guide", "wave", "caps", "tile")
 REVEAL_KINDS = ("band", "part")
 PARTS_HELP = (
-    "all, guide[:I,J], wave[:I,J], caps[:south,north], tile[:I,J] "
-    "(indices from 0; ranges like 0-3)"
+    "all, guide[:I,J], wave[:I,J], caps[:south,north], tile[:I,J] (indices from 0; ranges like 0-3)"
 )
 # Our default stripe colours: a pale sand and a plum, read apart from both side colours.
 STRIPE_A = (0.96, 0.88, 0.70, 1.0)

@@ -11,9 +11,9 @@ import contextlib
 import importlib
 
 import bpy
-import numpy as np
 
 from . import view_objects as vo
+from . import view_stills, view_stripes
 
 
 def _rigs():
@@ -48,9 +48,11 @@ def band_rig(context, ob, info: dict, count: int, width, which: int, up) -> str:
         )
     with _evaluated(ob):
         made = rigs.add_band_rig_for(context.scene, ob, int(which), int(count), width, up)
-    return ", ".join(o.name for o in made.values() if hasattr(o, "name")) if isinstance(
-        made, dict
-    ) else str(made)
+    return (
+        ", ".join(o.name for o in made.values() if hasattr(o, "name"))
+        if isinstance(made, dict)
+        else str(made)
+    )
 
 
 def side_by_side(context, ob, path: str, frame: int) -> str:
@@ -88,7 +90,9 @@ def apply_view_request(scene, ob, request, size=(320, 240)) -> list[str]:
     info = vo.eversion_info(ob)
     done = []
     if request.stripes is not None:
-        vo.set_stripes(vo.eversion_material(ob), True, request.stripes, request.stripe_colours)
+        view_stripes.set_stripes(
+            view_stripes.eversion_material(ob), True, request.stripes, request.stripe_colours
+        )
         done.append(f"height stripes every {request.stripes:g}")
     if request.parts is not None:
         vo.make_parts_view(scene, ob, request.parts, info)
@@ -101,14 +105,19 @@ def apply_view_request(scene, ob, request, size=(320, 240)) -> list[str]:
     context = SimpleNamespace(scene=scene)
     if request.slices is not None:
         made = band_rig(
-            context, ob, info, request.slices, request.slice_width, request.slice_which,
+            context,
+            ob,
+            info,
+            request.slices,
+            request.slice_width,
+            request.slice_which,
             request.up,
         )
         done.append(f"band {request.slice_which} of {request.slices} tracked: {made}")
     if request.level_points:
         done.append(level_markers(context, ob, info, request.up))
     if request.stills:
-        stills = vo.add_stills(scene, ob, info)
+        stills = view_stills.add_stills(scene, ob, info)
         stage_for_row(scene, stills, size[0] / size[1])
         done.append("stills: " + ", ".join(s.name for s in stills))
     return done
@@ -119,7 +128,7 @@ def stage_for_row(scene, objects, aspect: float):
     it (positions and sizes scaled, power by the square, so the row is lit as one ball)."""
     from . import headless
 
-    radius = vo.row_radius(objects, aspect)
+    radius = view_stills.row_radius(objects, aspect)
     cam = headless.add_stage(scene, radius, aspect)
     scale = max(radius, 1.0)  # the stage's lights are placed for a ball of radius 1
     for name in (headless.LIGHT_NAME, headless.FILL_NAME):

@@ -22,6 +22,7 @@ from bpy.props import (
 )
 
 from . import view_objects as vo
+from . import view_stills, view_stripes
 from .view_options import (
     DEFAULT_STRIPE_SPACING,
     PARTS_HELP,
@@ -176,7 +177,9 @@ class TURNABOUT_OT_add_stills(_ViewOperator, bpy.types.Operator):
 
     def run(self, context):
         ob, info = self.eversion(context)
-        stills = vo.add_stills(context.scene, ob, info, context.scene.turnabout_views.stills_gap)
+        stills = view_stills.add_stills(
+            context.scene, ob, info, context.scene.turnabout_views.stills_gap
+        )
         return f"{len(stills)} stills: " + ", ".join(s.name for s in stills)
 
 
@@ -223,9 +226,9 @@ class TURNABOUT_OT_apply_stripes(_ViewOperator, bpy.types.Operator):
     def run(self, context):
         ob, _ = self.eversion(context)
         s = context.scene.turnabout_views
-        mat = vo.eversion_material(ob)
+        mat = view_stripes.eversion_material(ob)
         colours = (tuple(s.stripe_colour_a), tuple(s.stripe_colour_b))
-        vo.set_stripes(mat, s.stripes, s.stripe_spacing, colours)
+        view_stripes.set_stripes(mat, s.stripes, s.stripe_spacing, colours)
         return f"height stripes {'on' if s.stripes else 'off'} in {mat.name}"
 
 

@@ -166,10 +166,11 @@ def test_stills_are_static_copies_of_the_bake_at_the_key_moments():
     from turnabout.views.reveal import key_moments
 
     from turnabout_blender import view_objects as vo
+    from turnabout_blender import view_stills as vs
 
     ob = _build(frames=21)
     before_keys = len(bpy.data.shape_keys)
-    stills = vo.add_stills(bpy.context.scene, ob)
+    stills = vs.add_stills(bpy.context.scene, ob)
     moments = key_moments(Controls(strips=STRIPS))
     assert [json.loads(s[vo.VIEW_TAG])["moment"] for s in stills] == [m for m, _ in moments]
     assert len(bpy.data.shape_keys) == before_keys  # stills carry no animation
@@ -234,11 +235,11 @@ def test_render_of_the_stills_shows_one_blob_per_key_moment(tmp_path):
     from turnabout.eversion import Controls
     from turnabout.views.reveal import key_moments
 
-    from turnabout_blender import view_objects as vo
+    from turnabout_blender import view_stills as vs
     from turnabout_blender.view_wiring import stage_for_row
 
     ob = _build(frames=24, size=(480, 72))
-    stills = vo.add_stills(bpy.context.scene, ob, gap=0.6)
+    stills = vs.add_stills(bpy.context.scene, ob, gap=0.6)
     stage_for_row(bpy.context.scene, stills, 480 / 72)
     img = _render(tmp_path / "stills.png", 1)
     _keep_image(tmp_path / "stills.png", "views_stills.png")
@@ -268,12 +269,12 @@ def _ray_heights(scene, radius, width, height):
 
 @pytest.mark.usefixtures("blank")
 def test_height_stripes_follow_world_height_on_the_outer_side(tmp_path):
-    from turnabout_blender import view_objects as vo
+    from turnabout_blender import view_stripes as vp
     from turnabout_blender.view_options import STRIPE_A, STRIPE_B
 
     spacing = 0.5
     ob = _build(size=(120, 160), samples=16)
-    vo.set_stripes(vo.eversion_material(ob), True, spacing)
+    vp.set_stripes(vp.eversion_material(ob), True, spacing)
     img = _render(tmp_path / "stripes.png", 1)
     _keep_image(tmp_path / "stripes.png", "views_stripes.png")
     co = np.empty(len(ob.data.vertices) * 3, np.float32)
@@ -301,7 +302,7 @@ def test_height_stripes_follow_world_height_on_the_outer_side(tmp_path):
                        != np.floor(2 * z[rows[:-1], col] / spacing)))  # fmt: skip
     assert edges >= 5 and abs(changes - edges) <= 1
     # switching the stripes off gives the plain outer colour back
-    vo.set_stripes(vo.eversion_material(ob), False)
+    vp.set_stripes(vp.eversion_material(ob), False)
     plain = _render(tmp_path / "plain.png", 1)
     inside = plain[..., 3] > 0.99
     assert (plain[..., 2] < plain[..., 1])[inside].all()  # apricot: no plum band left
@@ -346,13 +347,14 @@ def test_saved_file_plays_the_views_without_the_addon(tmp_path):
 
     from turnabout_blender import headless
     from turnabout_blender import view_objects as vo
+    from turnabout_blender import view_stripes as vp
     from turnabout_blender.view_options import parse_parts
 
     ob = _build(frames=8)
     scene = bpy.context.scene
     vo.make_parts_view(scene, ob, parse_parts("wave:2,5 caps:south", STRIPS))
     vo.add_reveal(scene, ob, "part", None, (1, 8))
-    vo.set_stripes(vo.eversion_material(ob), True, 0.3)
+    vp.set_stripes(vp.eversion_material(ob), True, 0.3)
     blend = str(tmp_path / "views.blend")
     headless.save_blend(blend)
     proc = run_python(REOPEN, blend, str(tmp_path / "r.png"), user_dir=tmp_path / "user")
@@ -446,9 +448,8 @@ def test_panel_operators_make_and_clear_the_views():
 
 @pytest.mark.usefixtures("blank")
 def test_a_rebuilt_eversion_keeps_its_view_on_the_new_bake_without_orphans():
-    from turnabout.views.parts import surface_parts
-
     from blender_support import orphans, set_small_build
+    from turnabout.views.parts import surface_parts
 
     s = bpy.context.scene.turnabout
     set_small_build(s, frames=6, n_lon=64, n_lat=16)
@@ -547,6 +548,7 @@ def test_scene_command_writes_every_view(tmp_path, capsys):
 
     from turnabout_blender import headless
     from turnabout_blender import view_objects as vo
+    from turnabout_blender import view_stripes as vp
 
     out = str(tmp_path / "shot.blend")
     argv = ["scene", out, "--frames", "6", "--mesh", "64x17", "--quiet", "--size", "80x60"]
@@ -568,7 +570,7 @@ def test_scene_command_writes_every_view(tmp_path, capsys):
     _, tri = _evaluated(view, 6)
     assert len(tri) == int(mask.sum())
     nodes = bpy.data.objects["Eversion"].data.materials[0].node_tree.nodes
-    assert nodes[vo.N_STRIPE_SCALE].inputs[1].default_value == pytest.approx(0.25)
+    assert nodes[vp.N_STRIPE_SCALE].inputs[1].default_value == pytest.approx(0.25)
 
 
 def _documented_commands():
