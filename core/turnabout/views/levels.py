@@ -194,6 +194,15 @@ def _less(x, y, id_less):
     return (x < y) | ((x == y) & id_less)
 
 
+def _less_block(x: np.ndarray, y: np.ndarray, id_less: np.ndarray) -> np.ndarray:
+    """_less over a (C, M) block; the tie rule is applied only where heights are equal."""
+    out = x < y
+    tie = x == y
+    if tie.any():
+        out |= tie & id_less
+    return out
+
+
 def _chunk_critical(H: np.ndarray, lt: LevelTopology):
     """Sign-change counts of one chunk: H (C, V) float64 heights -> critical (frame, vertex).
 
@@ -202,15 +211,16 @@ def _chunk_critical(H: np.ndarray, lt: LevelTopology):
     c, n = H.shape
     a, b, d = lt.columns
     ha, hb, hd = H.take(a, axis=1), H.take(b, axis=1), H.take(d, axis=1)
-    ab = _less(ha, hb, lt.id_less[0])  # a < b
-    bd = _less(hb, hd, lt.id_less[1])  # b < d
-    da = _less(hd, ha, lt.id_less[2])  # d < a
+    ab = _less_block(ha, hb, lt.id_less[0])  # a < b
+    bd = _less_block(hb, hd, lt.id_less[1])  # b < d
+    da = _less_block(hd, ha, lt.id_less[2])  # d < a
     del ha, hb, hd
     mid_a = ab == da  # a > b xor a > d  (a > b = ~ab, a > d = da)
     mid_b = bd == ab  # b > d xor b > a
     mid = np.where(mid_a, a, np.where(mid_b, b, d))
-    mid += (np.arange(c, dtype=np.int64) * n)[:, None]
-    changes = np.bincount(mid.ravel(), minlength=c * n).reshape(c, n)
+    changes = np.empty((c, n), np.int64)
+    for k in range(c):  # one bincount per frame (a loop over frames, not vertices)
+        changes[k] = np.bincount(mid[k], minlength=n)
     crit = (changes != 2) & lt.used
     fr, vx = np.nonzero(crit)
     return fr, vx, changes[fr, vx]
