@@ -60,11 +60,12 @@ def side_by_side(context, ob, path: str, frame: int) -> str:
         return str(_rigs().render_side_by_side(context.scene, path, int(frame), ob=ob))
 
 
-def level_markers(context, ob, info: dict, up) -> str:
-    """Level-point markers and the signed count of every frame of the motion."""
+def level_markers(context, ob, info: dict, up, text: bool = True) -> str:
+    """Level-point markers and the signed count of every frame of the motion (as an
+    animated property, and with ``text`` as a caption in the camera's corner)."""
     rigs = _rigs()
     with _evaluated(ob):
-        rigs.add_level_markers_for(context.scene, ob, up)
+        rigs.add_level_markers_for(context.scene, ob, up, text=bool(text))
     return f"level points of {ob.name} marked"
 
 

@@ -110,6 +110,11 @@ class TURNABOUT_PG_views(bpy.types.PropertyGroup):
         default="//slices.png",
         subtype="FILE_PATH",
     )
+    level_text: BoolProperty(
+        name="Count text",
+        description="Show the signed count of level points as text in the camera's corner",
+        default=True,
+    )
     level_up: FloatVectorProperty(
         name="Up",
         description="The direction that defines height for level points and slices",
@@ -290,7 +295,8 @@ class TURNABOUT_OT_add_level_points(_ViewOperator, bpy.types.Operator):
 
         ob, info = self.eversion(context)
         up = parse_vector(",".join(str(v) for v in context.scene.turnabout_views.level_up), "up")
-        return view_wiring.level_markers(context, ob, info, up)
+        text = context.scene.turnabout_views.level_text
+        return view_wiring.level_markers(context, ob, info, up, text)
 
 
 class TURNABOUT_OT_remove_level_points(_ViewOperator, bpy.types.Operator):
@@ -371,6 +377,7 @@ class TURNABOUT_PT_views(bpy.types.Panel):
         box = col.box()
         box.label(text="Level points", icon="EMPTY_SINGLE_ARROW")
         box.prop(s, "level_up")
+        box.prop(s, "level_text")
         row = box.row(align=True)
         row.operator("turnabout.add_level_points", icon="ADD")
         row.operator("turnabout.remove_level_points", text="", icon="X")

@@ -301,6 +301,11 @@ def test_height_stripes_follow_world_height_on_the_outer_side(tmp_path):
     edges = int(np.sum(np.floor(2 * z[rows[1:], col] / spacing)
                        != np.floor(2 * z[rows[:-1], col] / spacing)))  # fmt: skip
     assert edges >= 5 and abs(changes - edges) <= 1
+    # at the last frame the inner side faces out: it keeps its teal, no stripe shows
+    last = _render(tmp_path / "last.png", 8)
+    inside = last[..., 3] > 0.99
+    assert inside.sum() > 500
+    assert ((last[..., 2] > last[..., 0] + 0.08) & inside).sum() >= 0.97 * inside.sum()
     # switching the stripes off gives the plain outer colour back
     vp.set_stripes(vp.eversion_material(ob), False)
     plain = _render(tmp_path / "plain.png", 1)
@@ -502,8 +507,13 @@ def test_slice_and_level_point_buttons_call_the_rigs_and_clear_views_removes_the
 
     img = headless.read_png(str(tmp_path / "band.png"))
     assert img.shape[1] == 2 * 64 and (img[..., 3] > 0.5).sum() > 20
+    s.level_text = False
     assert bpy.ops.turnabout.add_level_points() == {"FINISHED"}
     assert "turnabout_signed_count" in ob
+    assert "Eversion count text" not in bpy.data.objects
+    s.level_text = True
+    assert bpy.ops.turnabout.add_level_points() == {"FINISHED"}
+    assert "Eversion count text" in bpy.data.objects
     assert ob.hide_viewport  # still hidden behind its view after the rigs read it
     assert bpy.ops.turnabout.clear_views() == {"FINISHED"}
     after = _data_counts()
