@@ -17,10 +17,10 @@ import json
 import os
 import subprocess
 import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
+from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_chain
 from turnabout import meshseq
 from turnabout.check.metrics import gauss_map_degree
 from turnabout.check.topology import topology_report
@@ -34,9 +34,6 @@ from turnabout.views.levels import (
     LevelPoints,
     level_points,
 )
-
-sys.path.insert(0, str(Path(__file__).parent))
-from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_chain  # noqa: E402
 
 
 def _random_ups(seed: int, count: int) -> list[np.ndarray]:
@@ -107,6 +104,8 @@ def test_level_points_of_one_frame_match_the_block(eversion_frames):
     whole = level_points(P, faces)
     one = level_points(P[12], faces)
     part = whole.of_frame(12)
+    np.testing.assert_array_equal(one.frame, part.frame)
+    np.testing.assert_array_equal(one.kind_counts(), part.kind_counts())
     np.testing.assert_array_equal(one.vertex, part.vertex)
     np.testing.assert_array_equal(one.kind, part.kind)
     np.testing.assert_allclose(one.position, part.position)
@@ -133,6 +132,7 @@ def test_unit_sphere_has_one_level_point_either_orientation(flip):
         target = -u if flip else u
         assert np.linalg.norm(lp.position[0] - target) < 0.25
         _banchoff_consistent(lp)
+    assert abs(gauss_map_degree(p, f) - 1.0) < 0.05
 
 
 def _unit(colat, lon):
@@ -170,6 +170,7 @@ def test_bumpy_sphere_keeps_signed_count_one(bumpy_sphere):
     domes, bowls, saddles = lp.kind_counts()[0]
     assert domes > 1 and saddles >= 1 and bowls >= 1
     assert domes + bowls - saddles == 1  # all simple saddles here
+    assert abs(gauss_map_degree(p, f) - 1.0) < 0.05
 
 
 def _smooth_critical_points():
@@ -250,6 +251,8 @@ def test_genus_g_surface_has_signed_count_one_minus_g(genus_surfaces, genus):
     # Hopf 1926: degree chi / 2 = 1 - g; the surface is checked to be a closed oriented
     # 2-manifold with V - E + F = 2 - 2 g before counting
     p, f = genus_surfaces[genus]
+    edges = np.unique(np.sort(f[:, [0, 1, 1, 2, 2, 0]].reshape(-1, 2), axis=1), axis=0)
+    assert len(p) - len(edges) + len(f) == 2 - 2 * genus  # V - E + F, counted here
     rep = topology_report(f, len(p))
     assert rep.is_manifold and rep.consistently_oriented and rep.components == 1
     assert rep.euler_characteristic == 2 - 2 * genus
@@ -277,6 +280,7 @@ def test_equal_heights_are_broken_consistently(shape):
         u = lp.up
         top = (p @ u).max()
         assert np.allclose(lp.position @ u, top), up
+    assert abs(gauss_map_degree(p, f) - 1.0) < 0.05
 
 
 # --- an independent link walk --------------------------------------------------------------

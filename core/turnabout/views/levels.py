@@ -72,13 +72,14 @@ class LevelPoints:
         return int(self.signed_count.shape[0])
 
     def of_frame(self, f: int) -> LevelPoints:
-        """The level points of frame f (frame-local arrays; signed_count has length 1)."""
+        """The level points of frame f as a one-frame LevelPoints (as if computed from that
+        frame alone: ``frame`` is 0 for every point, signed_count and down_count have length 1)."""
         if not -self.n_frames <= f < self.n_frames:
             raise LevelPointError(f"frame {f} out of range (allowed 0..{self.n_frames - 1})")
         f = int(f) % self.n_frames
         lo, hi = np.searchsorted(self.frame, [f, f + 1])
         return LevelPoints(
-            frame=self.frame[lo:hi],
+            frame=np.zeros(hi - lo, np.int64),
             vertex=self.vertex[lo:hi],
             position=self.position[lo:hi],
             kind=self.kind[lo:hi],
