@@ -283,6 +283,29 @@ def test_equal_heights_are_broken_consistently(shape):
     assert abs(gauss_map_degree(p, f) - 1.0) < 0.05
 
 
+def test_monkey_saddle_counts_with_multiplicity():
+    # Banchoff 1967: six sign changes around the link give index 1 - 6/2 = -2; Hopf 1926:
+    # the signed count stays 1, so the monkey saddle counts twice (z = 1 + a Re(e^(i alpha)
+    # (x + i y)^3) (1 - x^2)(1 - y^2) on the top of a cube, a monkey saddle at the centre)
+    p, f = subdivided_cube(20)
+    x, y = p[:, 0], p[:, 1]
+    top = (p[:, 2] == 1.0) & (np.abs(x) < 1) & (np.abs(y) < 1)
+    cubic = np.real(np.exp(0.3j) * (x + 1j * y) ** 3) * (1 - x * x) * (1 - y * y)
+    p = p.copy()
+    p[top, 2] += 0.3 * cubic[top]
+    lp = level_points(p, f)
+    assert lp.signed_count.tolist() == [1]
+    _banchoff_consistent(lp)
+    centre = int(np.argmin(np.linalg.norm(p - [0.0, 0.0, 1.0], axis=1)))
+    j = lp.vertex.tolist().index(centre)
+    assert lp.kind[j] == SADDLE and lp.index[j] == -2
+    domes, bowls, saddles = lp.kind_counts()[0]
+    multiplicity = -lp.index[lp.kind == SADDLE].sum()
+    assert multiplicity == saddles + 1
+    assert domes + bowls - multiplicity == 1
+    assert abs(gauss_map_degree(p, f) - 1.0) < 0.05
+
+
 # --- an independent link walk --------------------------------------------------------------
 
 
