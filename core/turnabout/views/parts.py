@@ -256,8 +256,8 @@ def _match(values: np.ndarray, targets: np.ndarray, span: float | None, what: st
     bad = d.min(axis=1) > tol
     if bad.any() or np.unique(best).size != best.size:
         raise ViewError("mesh", f"its {what} are not symmetric under the eversion's half-turn "
-                        "(use the default mesh or an even grid with an even or odd count "
-                        "per strip from the eversion's mesh builder)")  # fmt: skip
+                        "(theta -> pi / strips - theta, lat -> -lat); meshes from "
+                        "eversion.default_mesh keep it for both spacings")  # fmt: skip
     return best.astype(np.int64)
 
 
