@@ -112,6 +112,24 @@ def test_level_points_of_one_frame_match_the_block(eversion_frames):
     assert one.signed_count.tolist() == part.signed_count.tolist() == [1]
 
 
+def test_progress_is_reported_per_chunk_and_can_cancel(eversion_frames, monkeypatch):
+    from turnabout.progress import Cancelled
+    from turnabout.views import levels
+
+    P, faces = eversion_frames
+    monkeypatch.setattr(levels, "_CHUNK_ELEMENTS", 5 * faces.shape[0])  # 5 frames a chunk
+    calls = []
+    lp = level_points(P, faces, progress=lambda d, t: calls.append((d, t)))
+    assert calls == [(k, 25) for k in (5, 10, 15, 20, 25)]
+    np.testing.assert_array_equal(lp.signed_count, 1)
+
+    def stop(done, total):
+        raise Cancelled
+
+    with pytest.raises(Cancelled):
+        level_points(P, faces, progress=stop)
+
+
 # --- spheres, tori, higher genus -----------------------------------------------------------
 
 

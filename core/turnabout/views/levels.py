@@ -32,6 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..check.topology import MeshTopology, TopologyError, topology_report
+from ..progress import ProgressFn, no_progress
 
 DOME, BOWL, SADDLE = 1, 2, 3
 KIND_NAMES = {DOME: "dome", BOWL: "bowl", SADDLE: "saddle"}
@@ -262,14 +263,21 @@ def _facing_up(P: np.ndarray, fr: np.ndarray, vx: np.ndarray, u: np.ndarray, lt:
     return np.where(use_area, area > 0.0, w > 0)
 
 
-def level_points(positions, faces, up=(0.0, 0.0, 1.0), topology: LevelTopology | None = None):
+def level_points(
+    positions,
+    faces,
+    up=(0.0, 0.0, 1.0),
+    topology: LevelTopology | None = None,
+    progress: ProgressFn | None = None,
+) -> LevelPoints:
     """Level points of one frame or of every frame of an animation.
 
     positions : (V, 3) or (F, V, 3) float (float32 is read as float64 in chunks of frames);
     faces : (M, 3) int triangles of a closed, consistently oriented 2-manifold (or a
     MeshTopology of them); up : 3 numbers, any non-zero length; topology : a LevelTopology
-    of these faces, to skip re-validating them. Returns :class:`LevelPoints` (F = 1 for a
-    (V, 3) input). Raises LevelPointError on bad input.
+    of these faces, to skip re-validating them; progress(done, total) is called after each
+    chunk of frames and may raise turnabout.progress.Cancelled. Returns :class:`LevelPoints`
+    (F = 1 for a (V, 3) input). Raises LevelPointError on bad input, before any work.
     """
     u = unit_up(up)
     P, _ = _positions_block(positions)
@@ -280,15 +288,19 @@ def level_points(positions, faces, up=(0.0, 0.0, 1.0), topology: LevelTopology |
             f"the topology is for {lt.n_vertices} vertices, positions have {n_vertices}"
         )
     chunk = max(1, _CHUNK_ELEMENTS // max(lt.faces.shape[0], 1))
+    if P.dtype.kind == "f":
+        for s in range(0, n_frames, chunk):
+            block = P[s : s + chunk]
+            if not np.all(np.isfinite(block)):
+                f, v, _ = np.argwhere(~np.isfinite(block))[0]
+                raise LevelPointError(
+                    f"positions contain NaN or infinity (first at frame {s + f}, vertex {v}); "
+                    "every coordinate must be a finite number"
+                )
+    progress = no_progress if progress is None else progress
     frames, verts, changes, ups, maxima = [], [], [], [], []
     for s in range(0, n_frames, chunk):
         block = P[s : s + chunk]
-        if not np.all(np.isfinite(block)):
-            f, v, _ = np.argwhere(~np.isfinite(block))[0]
-            raise LevelPointError(
-                f"positions contain NaN or infinity (first at frame {s + f}, vertex {v}); "
-                "every coordinate must be a finite number"
-            )
         H = block @ u  # (C, V) float64
         fr, vx, ch = _chunk_critical(H, lt)
         ups.append(_facing_up(block, fr, vx, u, lt))
@@ -298,6 +310,7 @@ def level_points(positions, faces, up=(0.0, 0.0, 1.0), topology: LevelTopology |
         frames.append(fr + s)
         verts.append(vx)
         changes.append(ch)
+        progress(min(s + chunk, n_frames), n_frames)
     fr = np.concatenate(frames)
     vx = np.concatenate(verts)
     ch = np.concatenate(changes)
