@@ -51,6 +51,7 @@ VIEW_ATTRIBUTES = tuple(
     n + e for n in (PART_ATTR, TILE_ATTR, REVEAL_ATTR) for e in ("", SECOND_SUFFIX)
 ) + (SPLIT_ATTR, CORNER_ATTR)
 VIEW_TAG = "turnabout_view"  # on view objects: JSON {"kind", "source", ...}
+SOURCE_TAG = "turnabout_view_source"  # on view objects and stills: the eversion (an ID pointer)
 HIDDEN_TAG = "turnabout_hidden_by_view"  # on the eversion while a view hides it
 FILTER_MOD = "Turnabout view"
 REVEAL_INPUT = "Reveal"
@@ -334,12 +335,12 @@ def set_choice(view, choice: PartsChoice) -> None:
 
 
 def view_object_of(ob):
-    """The parts/reveal view object of eversion ``ob``, or None."""
+    """The parts/reveal view object of eversion ``ob`` (found through its pointer to ``ob``,
+    which survives renaming), or None."""
     for other in bpy.data.objects:
         tag = other.get(VIEW_TAG)
-        if tag and other.type == "MESH":
-            data = json.loads(tag)
-            if data.get("kind") == "parts" and data.get("source") == ob.name:
+        if tag and other.type == "MESH" and other.get(SOURCE_TAG) == ob:
+            if json.loads(tag).get("kind") == "parts":
                 return other
     return None
 
@@ -403,6 +404,7 @@ def make_parts_view(scene, ob, choice: PartsChoice, info: dict | None = None):
             coll.objects.link(view)
         view.matrix_world = ob.matrix_world.copy()
         view[VIEW_TAG] = json.dumps({"kind": "parts", "source": ob.name, "parts": "all"})
+        view[SOURCE_TAG] = ob
         _copy_cache_modifier(ob, view)
         mod = view.modifiers.new(FILTER_MOD, "NODES")
         mod.node_group = _new_filter_group(f"{view.name} filter", 2 * n + 2, 2 * n)

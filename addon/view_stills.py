@@ -15,6 +15,7 @@ import bpy
 import numpy as np
 
 from .view_objects import (
+    SOURCE_TAG,
     VIEW_TAG,
     ViewError,
     _hide_source,
@@ -78,6 +79,7 @@ def add_stills(scene, ob, info: dict | None = None, gap: float = 0.3):
         still = bpy.data.objects.new(f"{ob.name} {name}", me)
         coll.objects.link(still)
         still.location = (base.x + (i - (len(meshes) - 1) / 2) * pitch, base.y, base.z)
+        still[SOURCE_TAG] = ob
         still[VIEW_TAG] = json.dumps(
             {"kind": "still", "source": ob.name, "moment": name, "frame": frame}
         )

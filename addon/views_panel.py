@@ -7,7 +7,6 @@ its input first and reports a clear error that leaves the scene untouched.
 
 from __future__ import annotations
 
-import json
 import math
 
 import bpy
@@ -129,11 +128,8 @@ class TURNABOUT_PG_views(bpy.types.PropertyGroup):
 def eversion_for(ob):
     """The eversion behind ``ob``: itself, or the source of a view object or still."""
     if ob is not None and vo.VIEW_TAG in ob:
-        try:
-            name = json.loads(ob[vo.VIEW_TAG]).get("source")
-        except ValueError:
-            name = None
-        return bpy.data.objects.get(name) if name else None
+        source = ob.get(vo.SOURCE_TAG)
+        return source if isinstance(source, bpy.types.Object) else None
     return ob
 
 
@@ -249,6 +245,8 @@ class TURNABOUT_OT_clear_views(_ViewOperator, bpy.types.Operator):
         from . import view_wiring
 
         view_wiring.remove_rigs(context.scene, ob)
+        if getattr(context, "view_layer", None) is not None:
+            context.view_layer.objects.active = ob  # the active view object is gone
         return f"views of {ob.name} cleared"
 
 

@@ -435,6 +435,10 @@ def test_panel_operators_make_and_clear_the_views():
     s = bpy.context.scene.turnabout_views
     s.parts = "guide:0,1 caps"
     assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
+    ob.name = "Sphere"  # the view follows its eversion by pointer, not by name
+    bpy.context.view_layer.objects.active = bpy.data.objects["Eversion view"]
+    assert bpy.ops.turnabout.show_parts(parts="wave") == {"FINISHED"}
+    assert len([o for o in bpy.data.objects if "turnabout_view" in o]) == 1
     s.reveal_by = "PART"
     assert bpy.ops.turnabout.add_reveal() == {"FINISHED"}
     s.stripes = True
