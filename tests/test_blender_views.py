@@ -101,6 +101,7 @@ def test_parts_view_shows_exactly_the_core_faces_and_shares_the_bake(tmp_path, m
         mask = core_mask(parts)
         view = vo.make_parts_view(scene, ob, parse_parts(text, STRIPS))
         assert view.data is ob.data  # the same mesh datablock, so the same shape keys
+        assert view.material_slots[0].material is ob.material_slots[0].material  # both sides
         for frame in (2, 6):
             p_view, t_view = _evaluated(view, frame)
             ob.hide_viewport = False  # read the whole surface at the same frame
