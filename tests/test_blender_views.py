@@ -526,6 +526,48 @@ def test_slice_and_level_point_buttons_call_the_rigs_and_clear_views_removes_the
         assert after[kind] == before[kind], kind
 
 
+class _Layout:
+    """Stands in for a panel's layout (there is no window headless): records what a draw
+    asks for, so the test can check every named property and operator exists."""
+
+    def __init__(self, log):
+        self.log = log
+        self.enabled = True
+
+    def __getattr__(self, name):
+        if name in ("row", "column", "box", "split", "grid_flow"):
+            return lambda *a, **k: _Layout(self.log)
+        return lambda *a, **k: None
+
+    def prop(self, data, name, **kwargs):
+        self.log.append(("prop", data, name))
+
+    def operator(self, idname, **kwargs):
+        self.log.append(("operator", None, idname))
+
+
+@pytest.mark.usefixtures("blank")
+def test_the_views_panel_names_only_settings_and_operators_that_exist():
+    from types import SimpleNamespace
+
+    from turnabout_blender.views_panel import TURNABOUT_PT_views
+
+    ob = _build(frames=4)
+    log = []
+    panel = SimpleNamespace(layout=_Layout(log))
+    TURNABOUT_PT_views.draw(panel, SimpleNamespace(scene=bpy.context.scene, active_object=ob))
+    props = [name for kind, _, name in log if kind == "prop"]
+    ops = [name for kind, _, name in log if kind == "operator"]
+    assert len(props) >= 15 and len(ops) >= 9
+    s = bpy.context.scene.turnabout_views
+    for name in props:
+        assert name in s.bl_rna.properties, name
+    for idname in ops:
+        group, op = idname.split(".")
+        assert hasattr(getattr(bpy.ops, group), op), idname
+        assert getattr(getattr(bpy.ops, group), op).poll() in (True, False)
+
+
 # ----------------------------------------------------------------------------- command line
 
 
