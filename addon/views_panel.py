@@ -51,7 +51,7 @@ class TURNABOUT_PG_views(bpy.types.PropertyGroup):
     )
     reveal_by: EnumProperty(name="Reveal by", items=REVEAL_ITEMS, default="BAND")
     reveal_count: IntProperty(
-        name="Steps",
+        name="Count",
         description="Bands (or groups) that appear one after another (0 = the core's default)",
         default=0,
         min=0,
