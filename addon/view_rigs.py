@@ -61,7 +61,7 @@ def _check_frame(name: str, value) -> int:
 def _made_for(owner, roles) -> list:
     """Every data-block a rig of ``roles`` made for ``owner``, objects first."""
     found = []
-    for kind in ("objects", "cameras", "meshes", "node_groups", "materials", "actions"):
+    for kind in ("objects", "cameras", "lights", "meshes", "node_groups", "materials", "actions"):
         for idb in getattr(bpy.data, kind):
             if idb.get(ROLE) in roles and idb.get(OWNER) == owner:
                 found.append((kind, idb))
@@ -281,7 +281,10 @@ def add_band_rig(
         for i in range(4):
             rig_nodes.key(action, cam, "rotation_quaternion", i, frames, quats[:, i], 1)
         if cutaway:  # clip away whatever lies between the camera and the band
-            near = rig_math.cutaway_distances(distances, np.asarray(track.extent, float))
+            extent = np.asarray(track.extent, np.float64)
+            near = rig_math.cutaway_distances(
+                distances, _band_top(track, extent), 0.05 * extent + 2 * lift * radius
+            )
             lens_action = rig_nodes.new_action(cam.data, f"{cam.name} cutaway", "band top", ob)
             rig_nodes.key(lens_action, cam.data, "clip_start", 0, frames, near, 1)
         if side_view:
@@ -300,6 +303,18 @@ def add_band_rig(
         scene.camera = cam
     scene.frame_set(scene.frame_current)
     return made
+
+
+def _band_top(track, extent: np.ndarray) -> np.ndarray:
+    """(F,) height of the band's highest point above its centroid: from the track's
+    ``rise`` (heights of the band's outermost points, the highest among them) when it has
+    one, else the extent (an upper bound)."""
+    rise = getattr(track, "rise", None)
+    if rise is None:
+        return extent
+    rise = np.asarray(rise, np.float64)
+    top = np.where(np.isfinite(rise), rise, -np.inf).max(axis=1)
+    return np.where(np.isfinite(top), np.minimum(top, extent), extent)
 
 
 def _camera(scene, ob, name: str, role: str, lens: float):

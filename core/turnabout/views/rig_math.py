@@ -137,17 +137,17 @@ def _perpendicular(u: np.ndarray) -> np.ndarray:
     return p / np.linalg.norm(p)
 
 
-def cutaway_distances(distances, extent, room: float = 1.15) -> np.ndarray:
-    """Per-frame camera clip start that cuts away everything nearer than the band.
+def cutaway_distances(distances, top, room) -> np.ndarray:
+    """Per-frame camera clip start that cuts away everything above the band.
 
-    distances : (F,) camera-to-centroid distances; extent : (F,) band radius about its
-    centroid. Every band point is at least ``distance - extent`` from the camera; the clip
-    starts ``room`` times the extent before the centroid, and never nearer than 2 % of the
-    distance. Returns (F,) float64.
+    distances : (F,) camera-to-centroid distances along the view direction; top : (F,)
+    height of the band's highest point above its centroid (along up); room : scalar or
+    (F,) space kept above that point. Every band point is at least ``distance - top`` in
+    front of the camera, so a clip start of ``distance - top - room`` keeps the whole band
+    and cuts what lies above it; never nearer than 2 % of the distance. Returns (F,) float64.
     """
     d = np.asarray(distances, dtype=np.float64)
-    e = np.asarray(extent, dtype=np.float64)
-    return np.maximum(d - room * e, 0.02 * d)
+    return np.maximum(d - np.asarray(top, np.float64) - room, 0.02 * d)
 
 
 def side_view(
