@@ -96,7 +96,7 @@ def test_band_camera_keeps_the_band_the_same_size_in_the_image(tmp_path):
     sizes, radii = np.array(sizes), np.array(radii)
     for name, v in (("bounding box", sizes), ("radius from the centre", radii)):
         variation = np.abs(v / v[0] - 1).max()
-        print(f"band image {name}: {v.min():.1f}-{v.max():.1f} px, variation {variation:.3f}")
+        print(f"band image {name}: {v.min():.1f}-{v.max():.1f} px, variation {variation:.5f}")
         assert variation <= 0.10
 
     # the same on rendered frames: the highlighted band's pixel bounding box

@@ -143,3 +143,14 @@ def test_read_pc2_reads_what_the_layout_says_and_checks_sizes(tmp_path):
     path.write_bytes(b"NOTACACHE" + bytes(40))
     with pytest.raises(RigError, match="not a PC2 file"):
         rig_math.read_pc2(str(path), 3, 2)
+
+
+def test_cutaway_keeps_every_band_point_and_cuts_above_it():
+    rng = np.random.default_rng(5)
+    heights = rng.uniform(-0.4, 0.3, size=(6, 50))  # band points above the centroid
+    d = rng.uniform(2.0, 5.0, size=6)  # camera above the centroid
+    near = rig_math.cutaway_distances(d, heights.max(axis=1), 0.01)
+    depth = d[:, None] - heights  # how far in front of the camera each band point is
+    assert np.all(depth.min(axis=1) > near)
+    assert np.allclose(depth.min(axis=1) - near, 0.01)
+    assert np.all(rig_math.cutaway_distances(d, d, 0.0) == 0.02 * d)  # never at the camera
