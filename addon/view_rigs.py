@@ -41,6 +41,7 @@ from .view_rig_nodes import (  # noqa: F401  (names the add-on and tests read fr
 BAND_ROLES = ("band top", "band side", "band highlight")
 LEVEL_ROLES = ("level markers", "level text", "level count")
 COUNT_PROP = "turnabout_signed_count"
+PREVIOUS_CAMERA = "turnabout_previous_camera"
 
 
 # ----------------------------------------------------------------------------- shared
@@ -299,6 +300,8 @@ def add_band_rig(
     except Exception:
         remove_band_rig(scene, ob)
         raise
+    if scene.camera is not None:
+        cam[PREVIOUS_CAMERA] = scene.camera  # given back when the rig goes
     if make_active:
         scene.camera = cam
     scene.frame_set(scene.frame_current)
@@ -343,13 +346,19 @@ def find_band_cameras(scene, ob=None) -> tuple:
 
 def remove_band_rig(scene, ob) -> int:
     """Remove the band cameras, highlight and their data made for ``ob``; returns how many
-    data-blocks went. The scene camera falls back to another camera when it was one of them."""
+    data-blocks went. When one of its cameras was the scene camera, the camera that was the
+    scene camera before the rig comes back (or another camera, or none)."""
     was = scene.camera
     gone_cam = was is not None and was.get(ROLE) in BAND_ROLES and was.get(OWNER) == ob
+    tops = [o for o in bpy.data.objects if o.get(ROLE) == "band top" and o.get(OWNER) == ob]
+    before = tops[0].get(PREVIOUS_CAMERA) if tops else None
     n = _remove_made(ob, BAND_ROLES)
     if gone_cam:
-        others = [o for o in scene.objects if o.type == "CAMERA"]
-        scene.camera = others[0] if others else None
+        if before is not None and scene.objects.get(before.name) == before:
+            scene.camera = before
+        else:
+            others = [o for o in scene.objects if o.type == "CAMERA"]
+            scene.camera = others[0] if others else None
     return n
 
 

@@ -313,6 +313,9 @@ def test_removing_the_rigs_leaves_the_file_as_before():
     from turnabout_blender import view_rigs
 
     scene, ob = _scene(frames=6, size=(32, 24))
+    other = bpy.data.objects.new("another camera", bpy.data.cameras.new("another camera"))
+    scene.collection.objects.link(other)  # listed after the stage camera, and the active one:
+    scene.camera = other  # it must be the one that comes back
     before = _census()
     cam = scene.camera
     _band_rig(scene, ob)
