@@ -39,7 +39,7 @@ from .view_rig_nodes import (  # noqa: F401  (names the add-on and tests read fr
 )
 
 BAND_ROLES = ("band top", "band side", "band highlight")
-LEVEL_ROLES = ("level markers", "level text", "level count")
+LEVEL_ROLES = ("level markers", "level text")  # the count's action: _drop_count_property
 COUNT_PROP = "turnabout_signed_count"
 PREVIOUS_CAMERA = "turnabout_previous_camera"
 
@@ -54,7 +54,11 @@ def _check_object(ob) -> None:
 
 
 def _check_frame(name: str, value) -> int:
-    if isinstance(value, bool) or int(value) != value:
+    try:
+        whole = not isinstance(value, bool) and int(value) == value
+    except (TypeError, ValueError, OverflowError):
+        whole = False
+    if not whole or abs(int(value)) > 1_048_574:  # Blender's frame range
         raise RigError(f"{name}: must be a whole frame number, got {value!r}")
     return int(value)
 
@@ -508,19 +512,23 @@ def _count_property(ob, frames, values) -> None:
 
 
 def _drop_count_property(ob) -> None:
+    """Remove the count's F-curve (and its action when the markers made it and nothing else
+    is left in it) and the property."""
     from bpy_extras import anim_utils
 
     ad = ob.animation_data
     action = ad.action if ad is not None else None
     if action is not None:
+        bag = anim_utils.action_get_channelbag_for_slot(action, ad.action_slot)
+        fc = bag.fcurves.find(f'["{COUNT_PROP}"]') if bag is not None else None
+        if fc is not None:
+            bag.fcurves.remove(fc)
         if action.get(ROLE) == "level count" and action.get(OWNER) == ob:
-            ad.action = None
-            bpy.data.actions.remove(action)
-        else:
-            bag = anim_utils.action_get_channelbag_for_slot(action, ad.action_slot)
-            fc = bag.fcurves.find(f'["{COUNT_PROP}"]') if bag is not None else None
-            if fc is not None:
-                bag.fcurves.remove(fc)
+            if bag is None or len(bag.fcurves) == 0:
+                ad.action = None
+                bpy.data.actions.remove(action)
+            else:  # keys of the user's own live in it now: it is theirs
+                del action[ROLE], action[OWNER]
     if COUNT_PROP in ob:
         del ob[COUNT_PROP]
 

@@ -411,3 +411,30 @@ def test_stored_frames_read_back_as_the_depsgraph_evaluates_them(tmp_path, mode,
     slow = view_rigs.baked_positions(scene, ob, ids, evaluated=True)
     assert fast.shape == slow.shape == (11, 4, 3)
     assert np.abs(fast - slow).max() <= 1e-5
+
+
+@pytest.mark.usefixtures("blank")
+def test_removing_the_count_keeps_the_objects_own_keyframes():
+    from turnabout_blender import view_rigs
+
+    scene, ob = _scene(frames=6, size=(32, 24))
+    view_rigs.add_level_markers_for(scene, ob, text=False)
+    ob.keyframe_insert("location", index=2, frame=3)  # the user keys the object afterwards
+    action = ob.animation_data.action
+    view_rigs.remove_level_markers(scene, ob)
+    assert ob.animation_data.action == action
+    paths = [fc.data_path for fc in _fcurves(ob)]
+    assert paths == ["location"]
+    assert view_rigs.COUNT_PROP not in ob
+    # and on an object that was animated before, only the count's curve goes
+    view_rigs.add_level_markers_for(scene, ob, text=False)
+    assert sorted(fc.data_path for fc in _fcurves(ob)) == ['["turnabout_signed_count"]', "location"]
+    view_rigs.remove_level_markers(scene, ob)
+    assert [fc.data_path for fc in _fcurves(ob)] == ["location"]
+
+
+def _fcurves(ob):
+    from bpy_extras import anim_utils
+
+    ad = ob.animation_data
+    return list(anim_utils.action_get_channelbag_for_slot(ad.action, ad.action_slot).fcurves)
