@@ -22,6 +22,7 @@ module checks the inputs, places the cameras and reads the baked frames.
 from __future__ import annotations
 
 import json
+import math
 import os
 
 import bpy
@@ -255,6 +256,8 @@ def add_band_rig(
     lens = rig_math.positive("lens", lens, 5000.0)
     margin = rig_math.positive("margin", margin, 100.0)
     lift = rig_math.positive("lift", lift, 0.5)
+    elevation = rig_math.angle("elevation", elevation, 0.5 * math.pi)
+    colour = rig_math.colour_rgba("colour", colour)
     patch = None
     if band_faces is not None:
         tris = baked_triangles(ob) if triangles is None else np.asarray(triangles)

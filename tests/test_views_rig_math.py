@@ -154,3 +154,12 @@ def test_cutaway_keeps_every_band_point_and_cuts_above_it():
     assert np.all(depth.min(axis=1) > near)
     assert np.allclose(depth.min(axis=1) - near, 0.01)
     assert np.all(rig_math.cutaway_distances(d, d, 0.0) == 0.02 * d)  # never at the camera
+
+
+def test_colours_and_angles_are_checked():
+    assert rig_math.colour_rgba("colour", (1, 0.5, 0)) == (1.0, 0.5, 0.0, 1.0)
+    with pytest.raises(RigError, match=r"colour: must be 3 or 4 numbers from 0 to 1"):
+        rig_math.colour_rgba("colour", (2, 0, 0))
+    assert rig_math.angle("elevation", 0.3, np.pi / 2) == 0.3
+    with pytest.raises(RigError, match="elevation: must be an angle in radians"):
+        rig_math.angle("elevation", 2.0, np.pi / 2)

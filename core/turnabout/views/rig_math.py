@@ -45,6 +45,31 @@ def positive(name: str, value, upper: float | None = None) -> float:
     return v
 
 
+def colour_rgba(name: str, value) -> tuple[float, float, float, float]:
+    """An RGB or RGBA colour with components in [0, 1] as an RGBA tuple; RigError otherwise."""
+    try:
+        c = np.asarray(value, dtype=np.float64).ravel()
+    except (TypeError, ValueError):
+        c = np.array([np.nan])
+    if c.shape not in ((3,), (4,)) or not np.all((c >= 0) & (c <= 1)):
+        raise RigError(f"{name}: must be 3 or 4 numbers from 0 to 1 (RGB or RGBA), got {value!r}")
+    return tuple(float(x) for x in (c if len(c) == 4 else np.append(c, 1.0)))
+
+
+def angle(name: str, value, limit: float) -> float:
+    """``value`` as a float in (-limit, limit) radians; RigError naming ``name`` otherwise."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        v = float("nan")
+    if not -limit < v < limit:
+        raise RigError(
+            f"{name}: must be an angle in radians between {-limit:.4g} and "
+            f"{limit:.4g}, got {value!r}"
+        )
+    return v
+
+
 # ----------------------------------------------------------------------------- cameras
 
 
