@@ -290,9 +290,12 @@ def test_a_saved_file_plays_and_renders_the_rigs_without_the_addon(tmp_path):
     levels = level_points(view_rigs.baked_positions(scene, ob), view_rigs.baked_triangles(ob))
     view_rigs.add_level_markers(scene, ob, levels, 1)
     want = {}
+    text = bpy.data.objects["Eversion count text"]
+    assert text.parent == made["top"]  # the caption went to the scene camera, the band's
     for f in (1, 8):
         scene.frame_set(f)
         want[f] = list(made["top"].matrix_world.translation)
+        assert -text.location.z > made["top"].data.clip_start  # past the cutaway, so seen
     blend = str(tmp_path / "rigs.blend")
     headless.save_blend(blend)
     proc = run_python(
