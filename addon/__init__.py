@@ -11,7 +11,16 @@ from __future__ import annotations
 import importlib
 
 # Modules that define Blender classes, in registration order (property groups first).
-_CLASS_MODULES = ("props", "bake", "look", "checking", "export", "ui", "curves_panel")
+_CLASS_MODULES = (
+    "props",
+    "bake",
+    "look",
+    "checking",
+    "export",
+    "ui",
+    "curves_panel",
+    "views_panel",
+)
 
 
 def _modules():

@@ -156,13 +156,15 @@ def new_sphere_mesh(name: str, sphere, first_positions: np.ndarray, strips: int)
     layer = me.uv_layers.new(name="UVMap")
     layer.data.foreach_set("uv", uv[loops].ravel())
 
-    # half-strip of each face from the longitude at the middle of its cell (the default
-    # mesh spaces longitudes unevenly): quads run ring by ring, then the fans
+    # guide strip or wave strip of each face from the longitude at the middle of its cell
+    # (the default mesh spaces longitudes unevenly and need not start at 0): guide strip k
+    # is |theta - 2 pi k / strips| < pi / (2 strips), as in turnabout.views.parts.
+    # Quads run ring by ring, then the fans.
     n_lon = sphere.n_lon
     cell = np.concatenate([np.arange(len(quads)) % n_lon, np.arange(len(tris)) % n_lon])
-    theta = np.append(sphere.theta, 2 * np.pi)
+    theta = np.append(sphere.theta, sphere.theta[0] + 2 * np.pi)
     middle = 0.5 * (theta[:-1] + theta[1:])
-    guide = np.floor(middle[cell] * (strips / np.pi)).astype(np.int64) % 2 == 0
+    guide = np.floor(middle[cell] * (strips / np.pi) + 0.5).astype(np.int64) % 2 == 0
     attr = me.attributes.new(GUIDE_ATTRIBUTE, "FLOAT", "FACE")
     attr.data.foreach_set("value", guide.astype(np.float32))
     me.update()

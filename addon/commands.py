@@ -18,6 +18,8 @@ from turnabout.commands.controls_options import (
     read_controls,
 )
 
+from .view_options import add_view_options, read_view_options
+
 HELP = {
     "scene": "write a ready .blend: baked eversion, two-sided material, camera and lights",
     "render": "render frames of a .blend to PNG (Cycles on the CPU, or Workbench previews)",
@@ -99,6 +101,7 @@ def add_parser(subparsers, name: str):
         p.add_argument("output", help="the .blend file to write")
         _add_build_options(p)
         _add_render_options(p, "640x480", 64)
+        add_view_options(p)
         p.set_defaults(run=run_scene)
     elif name == "render":
         p.add_argument("blend", help="the .blend file to render")
@@ -194,11 +197,12 @@ def run_scene(args) -> int:
         return 2
     from turnabout.progress import ProgressBar
 
-    from . import headless
+    from . import headless, view_wiring
     from .props import INNER_COLOUR, OUTER_COLOUR
 
     try:
         choice = _choice(args)
+        views = read_view_options(args, choice.controls.strips)
         out = args.output
         _check_scene_options(args, out)
         out = os.path.abspath(out)
@@ -224,6 +228,7 @@ def run_scene(args) -> int:
                 progress=bar,
             )
         headless.point_cache_relative(ob, out)
+        view_wiring.apply_view_request(ob.users_scene[0], ob, views, args.size)
         headless.save_blend(out)
     except (ValueError, OSError) as exc:
         return _fail("scene", exc)

@@ -149,11 +149,13 @@ def test_strip_tint_marks_every_other_strip_and_both_sides_keep_their_colours():
     changes = int(np.sum(ring != np.roll(ring, 1)))
     assert changes == 2 * 8  # 8 guide strips alternating with 8 corrugated strips
     # the bands follow longitude, not sample count (the default mesh spaces them unevenly):
-    # each band is an eighth of the circle, read from the face centres of the round sphere
+    # each band is a sixteenth of the circle centred on a guide meridian or between two,
+    # read from the face centres of the round sphere
     centre = np.empty(len(me.polygons) * 3, np.float32)
     me.polygons.foreach_get("center", centre)
     xy = centre.reshape(-1, 3)[:480, :2].astype(float)
-    band = np.floor(np.mod(np.arctan2(xy[:, 1], xy[:, 0]), 2 * np.pi) / (np.pi / 8))
+    azimuth = np.mod(np.arctan2(xy[:, 1], xy[:, 0]) + np.pi / 16, 2 * np.pi)
+    band = np.floor(azimuth / (np.pi / 8))
     assert np.array_equal(ring.astype(bool), band.astype(int) % 2 == 0)
     nodes = me.materials[0].node_tree.nodes
     assert nodes["Guide strips"].attribute_name == "turnabout_guide"

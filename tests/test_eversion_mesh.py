@@ -15,7 +15,7 @@ from turnabout.eversion.regularity import quick_report
 
 def _gaps(mesh):
     n = mesh.n_lon
-    th = np.concatenate([mesh.theta, [2 * np.pi]])
+    th = np.concatenate([mesh.theta, [mesh.theta[0] + 2 * np.pi]])  # the wrap-around gap
     la = np.concatenate([[-np.pi / 2], mesh.lat, [np.pi / 2]])
     return np.diff(th)[:n], np.diff(la)
 
@@ -45,7 +45,7 @@ def test_every_default_edge_meets_the_crease_aim_from_the_bend_profile(strips):
     m = default_mesh(ctl)
     aim = math.radians(S.CREASE_AIM_DEG)
     per = m.n_lon // strips
-    th = np.append(m.theta[:per], 2 * np.pi / strips)
+    th = np.append(m.theta[:per], m.theta[0] + 2 * np.pi / strips)
     mid = 0.5 * (th[1:] + th[:-1])
     period = 2 * np.pi / strips
     rate_t = np.interp(mid, rep.theta, rep.bend_theta, period=period)

@@ -290,6 +290,21 @@ def sheets_meeting(detections: np.ndarray) -> np.ndarray:
     return out
 
 
+def _add_level_counts(frames: list[FrameReport], counts: np.ndarray, chi: int) -> None:
+    """Store each frame's level-point counts (F, 4); warn where the signed count is not
+    chi / 2 (Hopf: the Gauss-map degree of an immersed closed oriented surface)."""
+    for fr, (signed, domes, bowls, saddles) in zip(frames, counts.tolist(), strict=True):
+        fr.level_signed_count, fr.dome_count = signed, domes
+        fr.bowl_count, fr.saddle_count = bowls, saddles
+        if 2 * signed != chi:
+            fr.reasons.append(
+                f"level points: domes + bowls - saddles = {signed}, but chi/2 = {chi / 2:g} "
+                "(Hopf): some vertex star folds over seen along the up direction"
+            )
+            if fr.verdict == "ok":
+                fr.verdict = "warn"
+
+
 def check_animation(
     positions,
     faces,
@@ -299,6 +314,8 @@ def check_animation(
     intersections: bool = True,
     use_mathutils: bool = False,
     workers: int = 1,
+    level_counts=None,
+    level_up=None,
 ) -> AnimationReport:
     """Judge every frame of an animation of a fixed mesh.
 
@@ -308,6 +325,10 @@ def check_animation(
     skips double curves and triple points (the slow part); use_mathutils takes the
     intersection broad phase from Blender's BVH when importable; workers > 1 judges chunks
     of frames in that many forked processes (POSIX only; otherwise frames run in-process).
+    level_counts(positions (F, V, 3), faces (M, 3) int32) -> (F, 4) int: per frame the
+    level points' signed count and the numbers of domes, bowls and saddles (see
+    turnabout.views.levels), called once on closed orientable manifolds (faces oriented);
+    level_up : the unit up direction it used, recorded in the report.
     """
     th = Thresholds() if thresholds is None else thresholds
     if not isinstance(th, Thresholds):
@@ -349,6 +370,12 @@ def check_animation(
     job = _FrameJob(P, topo, ref, th, chi, closed_manifold, orientable, intersections,
                     use_mathutils, times)  # fmt: skip
     frames, inter_results = _run_frames(job, workers, progress)
+    counts = None
+    if level_counts is not None and closed_manifold and orientable:
+        counts = level_counts(P, topo.faces)  # None when it cannot count
+    levels_done = counts is not None
+    if levels_done:
+        _add_level_counts(frames, np.asarray(counts, np.int64).reshape(n_frames, 4), chi)
     ev = None
     if treport.is_sphere and n_frames >= 2:
         ev = eversion_check(P[0], P[-1], topo.edges, frames[0].signed_volume,
@@ -372,4 +399,7 @@ def check_animation(
         _topo=topo,
         _intersections=inter_results,
         _orientable=orientable,
+        level_up=(
+            tuple(float(x) for x in level_up) if levels_done and level_up is not None else None
+        ),
     )

@@ -41,6 +41,10 @@ TABLE_COLUMNS = (
     "min_bend_radius",
     "max_step",
     "max_severity",
+    "level_signed_count",
+    "dome_count",
+    "bowl_count",
+    "saddle_count",
 )
 
 VERDICTS = ("ok", "warn", "fail")
@@ -93,6 +97,11 @@ class FrameReport:
     triple_points: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
     double_curves_closed: list[bool] = field(default_factory=list)
     degenerate_pairs: int = 0
+    # level points (views.levels): None unless computed (closed orientable manifolds)
+    level_signed_count: int | None = None
+    dome_count: int | None = None
+    bowl_count: int | None = None
+    saddle_count: int | None = None
 
     def to_dict(self) -> dict:
         return _clean(
@@ -122,6 +131,10 @@ class FrameReport:
                 "triple_points": np.asarray(self.triple_points).tolist(),
                 "double_curves_closed": list(self.double_curves_closed),
                 "degenerate_pairs": self.degenerate_pairs,
+                "level_signed_count": self.level_signed_count,
+                "dome_count": self.dome_count,
+                "bowl_count": self.bowl_count,
+                "saddle_count": self.saddle_count,
             }
         )
 
@@ -143,6 +156,7 @@ class AnimationReport:
     _topo: MeshTopology | None = field(repr=False, default=None)
     _intersections: dict[int, IntersectionResult] = field(repr=False, default_factory=dict)
     _orientable: bool = field(repr=False, default=True)
+    level_up: tuple[float, float, float] | None = None  # unit up of the level points
 
     def failing_frames(self) -> list[int]:
         """Indices of the frames whose verdict is "fail"."""
@@ -160,11 +174,15 @@ class AnimationReport:
 
     def metrics_table(self) -> dict[str, np.ndarray]:
         """Per-frame columns (the JSON per-frame fields): numbers as float64/int64, and
-        ``verdict`` as a string array."""
+        ``verdict`` as a string array; level-point columns only when they were computed."""
         out: dict[str, np.ndarray] = {}
         for col in TABLE_COLUMNS:
             vals = [getattr(f, col) for f in self.frames]
             kind = np.int64 if col.endswith("_count") or col == "frame" else np.float64
+            if all(v is None for v in vals) and vals:  # level points not computed
+                continue
+            if any(v is None for v in vals):
+                vals, kind = [np.nan if v is None else v for v in vals], np.float64
             out[col] = np.array(vals, dtype=kind)
         out["verdict"] = np.array([f.verdict for f in self.frames])
         return out
@@ -205,6 +223,7 @@ class AnimationReport:
                 "warning_frames": self.warning_frames(),
                 "worst_frame": self.worst_frame,
                 "intersections_checked": self.intersections_checked,
+                "level_up": None if self.level_up is None else list(self.level_up),
                 "eversion": None if self.eversion is None else self.eversion.to_dict(),
                 "topology": self.topology.to_dict(),
                 "thresholds": self.thresholds.to_dict(),

@@ -75,6 +75,11 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
         "--workers", type=int, default=1,
         help="processes judging frames in parallel, >= 1 (default 1)",
     )  # fmt: skip
+    p.add_argument(
+        "--up", default="0,0,1", metavar="X,Y,Z",
+        help="up direction for the level points (domes, bowls, saddles facing up), any "
+        "non-zero length (default 0,0,1); write a leading minus as --up=-1,0,0",
+    )  # fmt: skip
     p.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
     g = p.add_argument_group("thresholds (see docs/checker.md for the reasoning)")
     for opt, attr, text in _THRESHOLD_OPTIONS:
@@ -120,10 +125,50 @@ def _check_outputs(args) -> None:
             ) from None
 
 
+def _parse_up(text: str) -> tuple[float, float, float] | str:
+    """The unit vector of ``--up X,Y,Z``, or an error message naming the option."""
+    import math
+
+    parts = str(text).split(",")
+    try:
+        xyz = [float(v) for v in parts]
+    except ValueError:
+        xyz = []
+    if len(xyz) != 3:
+        return f"--up must be three numbers X,Y,Z separated by commas, got {text!r}"
+    if not all(math.isfinite(v) for v in xyz):
+        return f"--up must be finite numbers, got {text!r}"
+    norm = math.sqrt(sum(v * v for v in xyz))
+    if not norm > 1e-300:
+        return f"--up must be a non-zero vector, got {text!r}"
+    return (xyz[0] / norm, xyz[1] / norm, xyz[2] / norm)
+
+
+def _level_counts(up):
+    """(positions (F, V, 3), faces) -> (F, 4) int64 signed count, domes, bowls, saddles."""
+
+    def count(positions, faces):
+        import numpy as np
+
+        from ..views.levels import LevelPointError, level_points
+
+        try:
+            lp = level_points(positions, faces, up)
+        except LevelPointError:
+            return None  # the report's level fields stay null
+        return np.column_stack([lp.signed_count, lp.kind_counts()])
+
+    return count
+
+
 def run(args: argparse.Namespace) -> int:
     from ..check import CheckInputError, ThresholdError, Thresholds, check_animation
     from ..meshseq import MeshSequenceError, read_sequence
     from ..output import STDOUT, OutputError
+
+    up = _parse_up(args.up)
+    if isinstance(up, str):
+        return _error(up)
 
     names = {f.name for f in fields(Thresholds)}
     overrides = {k: v for k, v in vars(args).items() if k in names and v is not None}
@@ -153,6 +198,8 @@ def run(args: argparse.Namespace) -> int:
             progress=bar,
             intersections=not args.no_intersections,
             workers=args.workers,
+            level_counts=_level_counts(up),
+            level_up=up,
         )
     except CheckInputError as exc:
         bar.close()
@@ -183,6 +230,15 @@ def run(args: argparse.Namespace) -> int:
         )
         for reason in report.reasons:
             print(f"  {reason}")
+        signed = [f.level_signed_count for f in report.frames]
+        if report.level_up is not None and None not in signed:
+            off = sum(2 * n != t.euler_characteristic for n in signed)
+            lo, hi = min(signed), max(signed)
+            print(
+                f"  level points (up {', '.join(f'{v:.3g}' for v in report.level_up)}): "
+                f"domes + bowls - saddles = {lo if lo == hi else f'{lo}..{hi}'}, chi/2 = "
+                f"{t.euler_characteristic / 2:g}" + (f", differs in {off} frame(s)" if off else "")
+            )
         if failing:
             worst = report.frames[report.worst_frame]
             x, y, z = worst.worst_position

@@ -12,10 +12,16 @@ at about rate x h, so the *bend* spacing gives each edge
 (the floor keeps the round parts, rate 1, at CREASE_AIM / ROUND_RATE), limited so that
 neighbouring edges differ by at most a factor 1 + GRADING, and places the samples by
 equidistributing 1 / h. Longitude samples are the same in every strip, so the mesh keeps
-the n-fold symmetry exactly. The default counts are the ones that meet the aim; asked-for
-counts keep the same distribution, scaled.
+the n-fold symmetry exactly. Every frame also has the half-turn about the horizontal axis at
+angle pi / (2 n), which acts on the parameters as (theta, lat) -> (pi / n - theta, -lat); the
+bend profiles are made symmetric under it and the samples placed on one half and mirrored,
+so the vertex set maps onto itself under the whole dihedral group (views.parts builds the
+vertex and face permutations). The longitude samples therefore start at the symmetry
+meridian theta = pi / (2 n), not at theta = 0. The default counts are the ones that meet
+the aim; asked-for counts keep the same distribution, scaled.
 
-The *even* spacing is the plain (theta, lat) grid, for textures that want square cells.
+The *even* spacing is the plain (theta, lat) grid, for textures that want square cells
+(shifted by a quarter step when a strip has an odd count, which keeps the half-turn).
 """
 
 from __future__ import annotations
@@ -101,37 +107,83 @@ def edge_lengths(rate: np.ndarray, x: np.ndarray, periodic: float | None = None)
 REFINE = 16  # sub-samples per profile interval when integrating 1 / h
 
 
-def _equidistribute(x: np.ndarray, h: np.ndarray, count: int | None, skip_ends: bool):
-    """Sample positions on [x[0], x[-1]] with spacing proportional to h (linear between nodes).
-
-    count : number of intervals (None: as many as make every spacing at most h);
-    returns count + 1 positions from x[0] to x[-1], or count - 1 inner ones with skip_ends.
-    """
+def _cumulative(x: np.ndarray, h: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(xf, cum): a fine grid over x (REFINE per interval) and the integral of 1 / h on it
+    (h linear between the nodes x), both (R,) float64, cum[0] = 0."""
     fine = np.linspace(0.0, x.size - 1.0, (x.size - 1) * REFINE + 1)
     xf = np.interp(fine, np.arange(x.size), x)
     density = 1.0 / np.interp(fine, np.arange(x.size), h)
     steps = 0.5 * (density[1:] + density[:-1]) * np.diff(xf)
-    cum = np.concatenate([[0.0], np.cumsum(steps)])
-    count = count or math.ceil(cum[-1])
-    levels = np.arange(count + 1) * (cum[-1] / count)
-    out = np.interp(levels, cum, xf)
-    return out[1:-1] if skip_ends else out
+    return xf, np.concatenate([[0.0], np.cumsum(steps)])
+
+
+def _mirrored_half(x: np.ndarray, h: np.ndarray, count: int | None) -> tuple[np.ndarray, int]:
+    """Sample positions on a whole interval symmetric about its middle, built from one half.
+
+    x : (k,) increasing nodes of the *first* half, from the interval's start x[0] to its
+        middle x[-1]; h : (k,) the (symmetric) aimed spacing there;
+    count : number of intervals over the whole (None: as few as keep every spacing <= h).
+    Returns (first, count): ``first`` holds the positions of levels 0 .. count // 2 (the
+    first half, ending on the middle when count is even); the caller mirrors the rest, so
+    the sample set is symmetric by construction rather than to rounding.
+    """
+    xf, cum = _cumulative(x, h)
+    total = 2.0 * cum[-1]
+    count = count or math.ceil(total - 1e-9)
+    levels = np.arange(count // 2 + 1) * (total / count)
+    first = np.interp(levels, cum, xf)
+    first[0] = x[0]
+    if count % 2 == 0:
+        first[-1] = x[-1]
+    return first, count
+
+
+def symmetric_rate(rate: np.ndarray, x: np.ndarray, centre: float, period: float | None = None):
+    """max(rate(x), rate(2 centre - x)): a bend profile made symmetric about ``centre``.
+
+    The eversion's half-turn maps (theta, lat) to (pi / n - theta, -lat), so the worst bend
+    over the motion is symmetric in both parameters; this removes the scan's sampling
+    asymmetry so that the mesh shares the symmetry. rate, x : (k,) float64.
+    """
+    mirror = np.interp(2.0 * centre - x, x, rate, period=period)
+    return np.maximum(rate, mirror)
 
 
 def theta_samples(rep: RegularityReport, strips: int, per_strip: int | None) -> np.ndarray:
-    """Longitudes of one strip [0, 2 pi / strips), starting at 0, equidistributing 1 / h."""
+    """Longitudes of one strip, (m,) float64 increasing in [0, 2 pi / strips), equidistributing
+    1 / h and invariant under theta -> pi / strips - theta (mod 2 pi / strips).
+
+    The map reflects the strip circle about its two fixed points, a quarter and three
+    quarters of a period. The samples are placed from the first fixed point (a sample) over
+    the half-circle to the second (a sample when m is even) and mirrored.
+    """
     period = 2 * np.pi / strips
-    x = np.concatenate([rep.theta, [period]])
-    h = edge_lengths(rep.bend_theta, rep.theta, periodic=period)
-    return _equidistribute(x, np.concatenate([h, h[:1]]), per_strip, skip_ends=False)[:-1]
+    rate = symmetric_rate(rep.bend_theta, rep.theta, period / 4, period=period)
+    h = edge_lengths(rate, rep.theta, periodic=period)
+    lo, hi = period / 4, 3 * period / 4
+    inner = rep.theta[(rep.theta > lo) & (rep.theta < hi)]
+    x = np.concatenate([[lo], inner, [hi]])
+    hx = np.interp(x, rep.theta, h, period=period)
+    first, count = _mirrored_half(x, hx, per_strip)
+    last = count // 2 if count % 2 == 0 else count // 2 + 1  # levels beyond the half
+    mirrored = period / 2 - first[1:last]  # levels count - 1 .. , in (-period / 4, period / 4)
+    one = np.concatenate([first, mirrored])
+    return np.sort(np.where(one < 0.0, one + period, one))
 
 
 def lat_samples(rep: RegularityReport, rings: int | None) -> np.ndarray:
-    """Latitudes of the rings, south to north (poles excluded), equidistributing 1 / h."""
-    h = edge_lengths(rep.bend_lat, rep.lat)
-    x = np.concatenate([[-np.pi / 2], rep.lat, [np.pi / 2]])
-    h = np.concatenate([h[:1], h, h[-1:]])
-    return _equidistribute(x, h, rings + 1 if rings else None, skip_ends=True)
+    """Latitudes of the rings, (r,) float64 south to north (poles excluded), equidistributing
+    1 / h; lat -> -lat maps the set to itself exactly (the north half is the south half
+    negated; the equator is a ring when r is odd)."""
+    rate = symmetric_rate(rep.bend_lat, rep.lat, 0.0)
+    h = edge_lengths(rate, rep.lat)
+    south = rep.lat < 0.0
+    x = np.concatenate([[-np.pi / 2], rep.lat[south], [0.0]])
+    hx = np.concatenate([h[:1], h[south], np.interp([0.0], rep.lat, h)])
+    first, count = _mirrored_half(x, hx, rings + 1 if rings else None)
+    south_rings = first[1 : (count + 1) // 2]  # levels 1 .. below the equator
+    mid = [0.0] if count % 2 == 0 else []
+    return np.concatenate([south_rings, mid, -south_rings[::-1]])
 
 
 def mesh_for(
@@ -160,6 +212,8 @@ def mesh_for(
     n = controls.strips
     if spacing == "even":
         mesh = uniform_sphere_mesh(n_lon or EVEN_PER_STRIP * n, n_lat or EVEN_RINGS)
+        if (mesh.n_lon // n) % 2:  # keep theta -> pi / n - theta: a quarter-step offset
+            mesh = SphereMesh(theta=mesh.theta + np.pi / (2 * mesh.n_lon), lat=mesh.lat)
     else:
         rep = require_regular(controls)
         one = theta_samples(rep, n, n_lon // n if n_lon else None)
