@@ -195,6 +195,7 @@ def _render(path, frame):
 
     scene = bpy.context.scene
     scene.frame_set(frame)
+    scene.render.film_transparent = True  # the surface's pixels are the ones with alpha
     scene.render.filepath = str(path)
     bpy.ops.render.render(write_still=True)
     return headless.read_png(str(path))
