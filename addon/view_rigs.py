@@ -395,16 +395,18 @@ def render_side_by_side(scene, out_path: str, frame: int, ob=None, cameras=None)
     top, side = cameras if cameras is not None else find_band_cameras(scene, ob)
     if side is None:
         raise RigError("band view: the rig has no side camera; add it with the side view on")
+    from turnabout.output import OutputError, atomic_write, check_output_file
+
     out_path = os.path.abspath(out_path)
     if not out_path.lower().endswith(".png"):
         raise RigError(f"output: {out_path!r} must end in .png")
-    folder = os.path.dirname(out_path)
-    os.makedirs(folder, exist_ok=True)
-    if not os.access(folder, os.W_OK):
-        raise RigError(f"output: cannot write to {folder!r}")
+    try:
+        check_output_file(out_path, "output")
+    except OutputError as exc:
+        raise RigError(str(exc)) from None
     keep = (scene.camera, scene.frame_current, scene.render.filepath)
     stem = f"{out_path[:-4]}.part{os.getpid()}"
-    temps = [f"{stem}-top.png", f"{stem}-side.png", f"{stem}-both.png"]
+    temps = [f"{stem}-top.png", f"{stem}-side.png"]
     fmt = scene.render.image_settings
     keep_fmt = (fmt.file_format, fmt.color_mode)
     try:
@@ -419,12 +421,15 @@ def render_side_by_side(scene, out_path: str, frame: int, ob=None, cameras=None)
         )
         try:
             img.pixels.foreach_set(both.ravel())
-            img.filepath_raw = temps[2]
             img.file_format = "PNG"
-            img.save()
+
+            def save(tmp: str) -> None:
+                img.filepath_raw = tmp
+                img.save()
+
+            atomic_write(out_path, save, suffix=".png")
         finally:
             bpy.data.images.remove(img)
-        os.replace(temps[2], out_path)
     finally:
         for p in temps:
             if os.path.exists(p):

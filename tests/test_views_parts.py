@@ -232,7 +232,7 @@ def test_bad_part_names_are_refused_with_the_allowed_range(call, option, allowed
 
 def test_bad_strip_count_and_mask_are_refused():
     m = uniform_sphere_mesh(8 * 16, 31)
-    with pytest.raises(ViewError, match="strips: must be an integer from 8 to 64"):
+    with pytest.raises(ViewError, match="strips: must be an integer from 8 to 16"):
         surface_parts(m, 3)
     with pytest.raises(ViewError, match="face_mask"):
         extract(np.zeros((m.n_vertices, 3)), m.triangles(), np.ones(5, bool))

@@ -91,7 +91,7 @@ def test_part_order_reveals_whole_parts_caps_then_guides_then_waves(mesh):
     [
         (lambda m: reveal_order(m, 8, by="spiral"), "by", "'band' or 'part'"),
         (lambda m: reveal_order(m, 8, by="band", count=0), "count", "from 1 to 90"),
-        (lambda m: reveal_order(m, 70), "strips", "from 8 to 64"),
+        (lambda m: reveal_order(m, 70), "strips", "from 8 to 16"),
         (lambda m: reveal_weights(np.zeros(3), 1.5), "reveal", "from 0 to 1"),
         (lambda m: reveal_weights(np.zeros(3), 0.5, softness=0.0), "softness", "(0, 1]"),
     ],
