@@ -188,6 +188,45 @@ class MeshTopology:
         return out
 
     @cached_property
+    def edge_row_candidates(self) -> np.ndarray:
+        """(E, 2, 2) int64: the edges one row over on each side of every edge (-1 if none).
+
+        For edge (v0, v1) and its face (v0, v1, a) on side s, the faces across the wing
+        edges (v0, a) and (v1, a) are (v0, a, x) and (v1, a, y); the candidates on that side
+        are their edges (a, x) and (a, y). They touch the apex a, never v0 or v1, so an edge
+        continuing (v0, v1) along its own line is never a candidate. On a regular grid (a
+        quad grid split by diagonals, a triangular lattice) both are parallel to the edge.
+        """
+        out = -np.ones((self.n_edges, 2, 2), np.int64)
+        ev = self.edges
+        fv = self.faces.astype(np.int64)
+        ok_edge = self.manifold_edges
+        for side in range(2):
+            f = self.edge_faces[:, side]
+            e = np.flatnonzero((f >= 0) & ok_edge)
+            f = f[e]
+            fe = self.face_edges[f]  # (k, 3)
+            other = fe != e[:, None]
+            regular = other.sum(axis=1) == 2  # a face repeating a vertex has fewer edges
+            e, f, fe, other = e[regular], f[regular], fe[regular], other[regular]
+            wings = fe[other].reshape(-1, 2)
+            ff = fv[f]
+            # apex: the corner of f that is not an endpoint of e
+            not_end = (ff != ev[e, :1]) & (ff != ev[e, 1:])
+            apex = ff[np.arange(e.size), np.argmax(not_end, axis=1)]
+            for slot in range(2):
+                w = wings[:, slot]
+                good = self.manifold_edges[w]
+                g = np.where(good, self.edge_faces[w].sum(axis=1) - f, 0)
+                ge = self.face_edges[g]  # (k, 3)
+                has_apex = (ev[ge, 0] == apex[:, None]) | (ev[ge, 1] == apex[:, None])
+                pick = has_apex & (ge != w[:, None]) & (ge != e[:, None])
+                found = pick.any(axis=1) & good
+                cand = ge[np.arange(e.size), np.argmax(pick, axis=1)]
+                out[e[found], side, slot] = cand[found]
+        return out
+
+    @cached_property
     def vertex_neighbors(self) -> tuple[np.ndarray, np.ndarray]:
         """CSR (starts (V+1,), neighbours) of the vertex graph."""
         a = np.concatenate([self.edges[:, 0], self.edges[:, 1]])
