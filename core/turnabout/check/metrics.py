@@ -22,6 +22,9 @@ _TWO_SQRT3 = 2.0 * np.sqrt(3.0)
 # Floor of the neighbours' mean crease angle in the concentration ratio, degrees: an edge
 # beside flat rows is compared with 1 degree, not divided by zero (docs/checker.md).
 CONCENTRATION_FLOOR_DEG = 1.0
+# Gauss-map degrees within this of an integer are that integer (float64 rounding of a sum of
+# solid angles over up to millions of faces stays far below it)
+_DEGREE_SNAP = 1e-9
 
 
 @dataclass(frozen=True)
@@ -268,6 +271,12 @@ def frame_metrics(
         den = 1.0 + (ax * bx + ay * by + az * bz) + (bx * qx + by * qy + bz * qz)
         den += qx * ax + qy * ay + qz * az
         degree = float(2.0 * np.arctan2(triple, den).sum() / (4 * np.pi))
+        # an integer up to rounding (the solid angles tile the sphere a whole number of
+        # times): snap float noise to it, so that a torus reports 0.0, never -0.0 or -4e-17
+        nearest = round(degree)
+        if abs(degree - nearest) <= _DEGREE_SNAP:
+            degree = float(nearest)
+        degree += 0.0  # -0.0 -> 0.0
     else:
         volume = float("nan")
         degree = float("nan")

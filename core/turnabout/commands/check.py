@@ -135,16 +135,7 @@ def run(args: argparse.Namespace) -> int:
             f"{t.n_faces} triangles, chi = {t.euler_characteristic}, "
             f"{'orientable' if t.orientable else 'non-orientable'}"
         )
-        for reason in report.reasons:
-            print(f"  {reason}")
-        if failing:
-            worst = report.frames[report.worst_frame]
-            x, y, z = worst.worst_position
-            print(
-                f"  worst frame {worst.frame}: {worst.reasons[0] if worst.reasons else ''} "
-                f"near ({x:.4g}, {y:.4g}, {z:.4g})"
-            )
-            shown = ", ".join(str(f) for f in failing[:20]) + (" ..." if len(failing) > 20 else "")
-            print(f"  failing frames: {shown}")
+        for line in report.summary_lines():
+            print(line)
         print(f"verdict: {report.verdict}; everted: {'yes' if report.everted else 'no'}")
     return 1 if failing else 0
