@@ -392,8 +392,8 @@ def run_demo(args) -> int:
             f"(frames {', '.join(map(str, previews))})"
         )
     print(
-        f"  verdict:  {report.verdict} ({len(report.failing_frames())} failing frames "
-        f"of {len(outcome.frames)})"
+        f"  verdict:  {report.verdict} ({len(report.failing_frames())} failing frames, "
+        f"{len(report.noted_frames())} noted, of {len(outcome.frames)})"
     )
     return 0
 
