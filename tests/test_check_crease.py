@@ -40,15 +40,18 @@ def _icosphere(level: int) -> tuple[np.ndarray, np.ndarray]:
     return P, F
 
 
-def _judged(fm, th=Thresholds()):
+def _judged(fm):
     """Edges the concentration rule judges, and whether each is flagged."""
+    th = Thresholds()
     judged = fm.crease_deg >= th.concentration_min_deg
     return judged, judged & (fm.crease_concentration >= th.concentration_warn)
 
 
 def _wing_ratio(fm, topo):
-    """The former rule: an edge's angle over the mean of its four wing edges (floor 1°)."""
-    wings = topo.edge_wings
+    """The former rule: an edge's angle over the mean of its four wing edges (the other
+    edges of its two faces; floor 1°), on a closed mesh."""
+    fe = topo.face_edges[topo.edge_faces]  # (E, 2, 3)
+    wings = fe[fe != np.arange(topo.n_edges)[:, None, None]].reshape(-1, 4)
     return fm.crease_deg / np.maximum(fm.crease_deg[wings].mean(axis=1), 1.0)
 
 

@@ -174,20 +174,6 @@ class MeshTopology:
         return self.manifold_edges & (self._edge_dirs[:, 0] == self._edge_dirs[:, 1])
 
     @cached_property
-    def edge_wings(self) -> np.ndarray:
-        """(E, 4) int64: the other edges of the edge's two faces (-1 where missing)."""
-        out = -np.ones((self.n_edges, 4), np.int64)
-        for side in range(2):
-            f = self.edge_faces[:, side]
-            ok = f >= 0
-            fe = self.face_edges[f[ok]]  # (k, 3)
-            e = np.nonzero(ok)[0]
-            others = fe[fe != e[:, None]]
-            if others.size == 2 * e.size:
-                out[e, 2 * side : 2 * side + 2] = others.reshape(-1, 2)
-        return out
-
-    @cached_property
     def edge_row_candidates(self) -> np.ndarray:
         """(E, 2, 2) int64: the edges one row over on each side of every edge (-1 if none).
 
