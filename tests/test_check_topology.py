@@ -98,6 +98,11 @@ def test_sphere_missing_one_face_is_an_open_consistently_oriented_disk():
     assert rep.nonmanifold_vertices == 0 and rep.nonmanifold_edges == 0
     assert rep.consistently_oriented and rep.orientable
     assert rep.euler_characteristic == 1 and not rep.is_manifold
+    from turnabout.check import check_animation
+
+    (reason,) = check_animation(p, faces[1:], intersections=False).reasons
+    assert "3 boundary edges, 3 boundary vertices" in reason
+    assert "0 non-manifold vertices" in reason
     # one flipped face is still seen, with or without a boundary
     f = faces[1:].copy()
     f[100] = f[100, ::-1]
