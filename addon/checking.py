@@ -169,7 +169,26 @@ def read_frames(context, ob, start: int, end: int):
     return positions, faces
 
 
-def _run_checker(positions, faces, intersections, state, workers=1):
+def bake_frame_times(ob, start: int, end: int):
+    """(end - start + 1,) float64 eversion time of each frame from the object's bake settings
+    (the "turnabout" JSON property: frame f of a bake shows time (f - frame_start) /
+    (frames - 1)); NaN outside the baked frames; None for an object without them."""
+    import json
+
+    from .bake import PROP_TAG
+
+    try:
+        data = json.loads(ob[PROP_TAG])
+        first, count = int(data["frame_start"]), int(data["frames"])
+    except (KeyError, TypeError, ValueError):
+        return None
+    if count < 2:
+        return None
+    t = (np.arange(start, end + 1) - first) / (count - 1)
+    return np.where((t >= 0) & (t <= 1), t, np.nan)
+
+
+def _run_checker(positions, faces, intersections, state, workers=1, times=None):
     """Thread body: run the core checker, recording progress and the result in ``state``."""
     from turnabout.check import Thresholds, check_animation
     from turnabout.progress import Cancelled
@@ -184,6 +203,7 @@ def _run_checker(positions, faces, intersections, state, workers=1):
             positions,
             faces,
             thresholds=Thresholds(),
+            times=times,
             progress=progress,
             intersections=intersections,
             workers=workers,
@@ -230,7 +250,8 @@ def check_steps(
     state = {"cancel": threading.Event(), "done": 0, "total": 1}
     worker = threading.Thread(
         target=_run_checker,
-        args=(positions, faces, intersections, state, workers if bpy.app.background else 1),
+        args=(positions, faces, intersections, state, workers if bpy.app.background else 1,
+              bake_frame_times(ob, start, end)),  # fmt: skip
         daemon=True,
     )
     worker.start()
@@ -372,8 +393,10 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
             row = settings.results.add()
             row.frame = start + i
             row.verdict = str(fr.verdict)
-            row.reasons = "; ".join(str(r) for r in fr.reasons)
-        settings.last_verdict = str(report.verdict)
+            notes = [f"note: {n}" for n in fr.notes]
+            row.reasons = "; ".join([str(r) for r in fr.reasons] + notes)
+        noted = len(report.noted_frames())
+        settings.last_verdict = str(report.verdict) + (f", {noted} noted frames" if noted else "")
 
     if curve_object:
         double_curve_object(context, ob, report.double_curves(at))
@@ -449,11 +472,12 @@ class TURNABOUT_OT_check(bpy.types.Operator):
         for w in outcome.warnings:
             self.report({"WARNING"}, w)
         failing = len(outcome.report.failing_frames())
+        noted = len(outcome.report.noted_frames())
         where = f"; report: {', '.join(outcome.files)}" if outcome.files else ""
         self.report(
             {"INFO"},
-            f"{ob.name}: {outcome.report.verdict}, {failing} failing frames of "
-            f"{len(outcome.frames)}{where}",
+            f"{ob.name}: {outcome.report.verdict}, {failing} failing frames, {noted} noted, "
+            f"of {len(outcome.frames)}{where}",
         )
         return {"FINISHED"}
 

@@ -411,7 +411,10 @@ def run_demo(args) -> int:
             f"(frames {', '.join(map(str, previews))})"
         )
     failing = report.failing_frames()
-    print(f"  verdict:  {report.verdict} ({len(failing)} failing frames of {len(outcome.frames)})")
+    print(
+        f"  verdict:  {report.verdict} ({len(failing)} failing frames, "
+        f"{len(report.noted_frames())} noted, of {len(outcome.frames)})"
+    )
     return 1 if failing else 0
 
 

@@ -177,3 +177,59 @@ def test_closing_the_check_midway_restores_the_frame_and_changes_nothing():
         next(steps)
     steps.close()  # what ESC does in the interface
     assert counts() == before and scene.frame_current == 7
+
+
+# ----------------------------------------------------------------------------- times, notes
+
+
+@needs_checker
+@pytest.mark.usefixtures("blank")
+def test_the_check_reports_the_bakes_frame_times(tmp_path):
+    # a bake shows time (f - frame_start) / (frames - 1) at frame f; frames past the bake
+    # have no time (null)
+    from blender_support import small_mesh
+    from turnabout.eversion import Controls
+
+    from turnabout_blender import bake
+
+    plan = bake.plan_bake(Controls(), 6, 3, 1, small_mesh(), "SHAPE_KEYS")
+    ob = bake.bake_eversion(bpy.context.scene, plan)
+    bpy.context.view_layer.objects.active = ob
+    out = tmp_path / "reports"
+    assert bpy.ops.turnabout.check(use_range=True, first=3, last=9, report_dir=str(out)) == {
+        "FINISHED"
+    }
+    (path,) = out.glob("*_check.json")
+    times = [f["time"] for f in json.loads(path.read_text())["frames"]]
+    assert times[:6] == pytest.approx([0.0, 0.2, 0.4, 0.6, 0.8, 1.0])
+    assert times[6] is None
+
+
+@needs_checker
+@pytest.mark.usefixtures("blank")
+def test_notes_are_shown_beside_the_verdict():
+    # four spheres meeting in two points of four sheets (see test_check_intersections): a
+    # note on every frame, no warning, so the verdict stays ok and the notes show
+    from turnabout import surfaces
+
+    p, f = surfaces.round_sphere(24)
+    a, b = 0.4, 0.9  # a generic turn of each sphere: no face meets another one edge-on
+    rz = np.array([[np.cos(a), -np.sin(a), 0], [np.sin(a), np.cos(a), 0], [0, 0, 1]])
+    rx = np.array([[1, 0, 0], [0, np.cos(b), -np.sin(b)], [0, np.sin(b), np.cos(b)]])
+    p = p @ (rx @ rz).T
+    quarter = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
+    parts = [p + np.array([0.8, 0.0, 0.6])]
+    for _ in range(3):
+        parts.append(parts[-1] @ quarter.T)
+    me = bpy.data.meshes.new("four")
+    me.from_pydata(np.vstack(parts).tolist(), [], np.vstack([f + k * len(p) for k in range(4)])
+                   .tolist())  # fmt: skip
+    ob = bpy.data.objects.new("four", me)
+    bpy.context.scene.collection.objects.link(ob)
+    bpy.context.view_layer.objects.active = ob
+    scene = bpy.context.scene
+    scene.frame_start, scene.frame_end = 1, 2
+    assert bpy.ops.turnabout.check(write_reports=False) == {"FINISHED"}
+    s = scene.turnabout
+    assert s.last_verdict == "ok, 2 noted frames", [r.reasons for r in s.results]
+    assert all(r.verdict == "ok" and "note: multiple points" in r.reasons for r in s.results)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import sys
@@ -207,3 +208,7 @@ def test_demo_writes_a_blend_a_report_and_previews(tmp_path, capsys):
     assert (out / "eversion.blend").is_file()
     assert (out / "eversion_Eversion_check.json").is_file()
     assert sorted(os.listdir(out / "preview")) == ["frame_0001.png", "frame_0008.png"]
+    # the report carries the bake's times: frame k of 8 at time k / 7
+    report = json.loads((out / "eversion_Eversion_check.json").read_text())
+    assert [f["time"] for f in report["frames"]] == pytest.approx([k / 7 for k in range(8)])
+    assert "noted, of 8)" in said

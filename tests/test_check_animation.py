@@ -195,3 +195,49 @@ def test_forked_workers_give_the_same_report(push_through):
     assert par.failing_frames() == rep.failing_frames()
     assert [f.reasons for f in par.frames] == [f.reasons for f in rep.frames]
     assert np.allclose(par.metrics_table()["max_step"], rep.metrics_table()["max_step"])
+
+
+def test_mirrored_larger_sphere_is_reversed_but_not_the_same_size(sphere):
+    # x -> -1.02 x reverses the orientation (a point reflection in 3D has determinant -1)
+    # and multiplies volumes by 1.02^3 = 1.061: the orientation is right, the size is not,
+    # and the report says which
+    _, p0, faces = sphere
+    rep = check_animation(np.stack([p0, -1.02 * p0]), faces, intersections=False)
+    ev = rep.eversion
+    assert ev.volume_ratio == pytest.approx(-(1.02**3))
+    assert ev.orientation_reversed and not ev.same_volume and not ev.everted
+    assert "orientation is not reversed" not in ev.reason
+    assert "enclosed volume changed" in ev.reason and "orientation is reversed" in ev.reason
+    same = check_animation(np.stack([p0, 1.0 * p0]), faces, intersections=False).eversion
+    assert not same.orientation_reversed and same.same_volume
+    assert "orientation is not reversed" in same.reason
+    assert "volume changed" not in same.reason
+    assert rep.to_dict()["eversion"]["same_volume"] is False
+
+
+def test_times_are_reported_per_frame_and_unknown_ones_as_null(sphere):
+    _, p0, faces = sphere
+    positions = np.stack([p0 * (1 + 0.01 * k) for k in range(4)])
+    times = np.array([0.0, 0.25, np.nan, 0.75])
+    rep = check_animation(positions, faces, times=times, intersections=False)
+    assert [f["time"] for f in rep.to_dict()["frames"]] == [0.0, 0.25, None, 0.75]
+    with pytest.raises(CheckInputError, match="times"):
+        check_animation(positions, faces, times=[0.0, 1.0])
+    with pytest.raises(CheckInputError, match="times"):
+        check_animation(positions, faces, times=[0.0, 0.1, np.inf, 0.3])
+
+
+def test_summary_counts_frames_and_causes_per_level_and_names_the_orientation(push_through):
+    scale, _, _, rep = push_through
+    lines = rep.summary_lines()
+    failing = rep.failing_frames()
+    (fail_line,) = [x for x in lines if "failing frames:" in x]
+    assert f"failing frames: {len(failing)} of {len(scale)} (" in fail_line
+    for cause, n in rep.causes("fail").items():
+        assert f"{cause} {n}" in fail_line
+        fails = [rep.frames[k].reasons[: rep.frames[k].fail_count] for k in failing]
+        assert n == sum(any(r.startswith(cause + ":") for r in rs) for rs in fails)
+    # the naive push-through mirrors the sphere: outward first, inward last
+    (orient,) = [x for x in lines if "orientation:" in x]
+    assert "first frame outward" in orient and "last frame inward" in orient
+    assert orient.endswith("reversed") and "not reversed" not in orient

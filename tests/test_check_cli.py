@@ -129,3 +129,29 @@ def test_command_runs_as_a_program(tmp_path, push):
         capture_output=True, text=True, timeout=120,
     )  # fmt: skip
     assert proc.returncode == 2 and "end_header" in proc.stderr
+
+
+def test_summary_names_counts_causes_and_orientation(push, capsys):
+    assert main(["check", str(push), "--no-intersections"]) == 1
+    out = capsys.readouterr().out
+    # the old summary said only "verdict: fail"
+    assert "failing frames: " in out and " of 11 (crease " in out
+    assert "orientation: first frame outward" in out and "last frame inward" in out
+    assert out.rstrip().endswith("verdict: fail; everted: yes")
+
+
+def test_torus_degree_is_written_as_zero_not_minus_zero(tmp_path):
+    # Hopf: chi(torus) = 0, so its Gauss-map degree is 0 (H. Hopf, 1926); float noise must
+    # not make it -0.0 or -4e-17 in the reports
+    from turnabout import surfaces
+
+    p, f = surfaces.torus()
+    path = meshseq.write_npz(tmp_path / "torus.npz", p[None], f)
+    out = tmp_path / "t.json"
+    assert main(["check", str(path), "--quiet", "--no-intersections", "--json", str(out),
+                 "--csv", str(tmp_path / "t.csv")]) == 0  # fmt: skip
+    text = out.read_text()
+    assert '"degree": 0.0' in text and '"degree": -' not in text
+    row = (tmp_path / "t.csv").read_text().splitlines()
+    degree = row[1].split(",")[row[0].split(",").index("degree")]
+    assert degree == "0"

@@ -206,5 +206,7 @@ def test_four_symmetric_spheres_meet_in_fourfold_points():
     fr = rep.frames[0]
     assert fr.triple_point_count == 2
     assert np.allclose(np.sort(fr.triple_points[:, 2]), [0.0, 2 * h], atol=0.01)  # mesh error
-    assert any("more than three sheets meet (up to 4)" in r for r in fr.reasons)
+    # a fact of the symmetric configuration, not a fault: a note, not a warning
+    assert any("more than three sheets meet (up to 4)" in n for n in fr.notes)
+    assert not any("sheets meet" in r for r in fr.reasons)
     assert not any("Banchoff" in r for r in fr.reasons)

@@ -85,3 +85,36 @@ def test_fan_signs_orient_every_vertex_fan_of_a_non_orientable_mesh():
         oriented = n[fs] * signs[fs, ks][:, None]
         mean = oriented.sum(axis=0)
         assert np.all(oriented @ mean > 0)  # a smooth fan: every face agrees with the mean
+
+
+def test_sphere_missing_one_face_is_an_open_consistently_oriented_disk():
+    # Removing one triangle from a sphere leaves a disk: chi = 2 - 1 = 1 (Euler's formula
+    # with one face fewer), bounded by the removed face's 3 edges and 3 vertices. Every
+    # vertex link is one circle or (at those 3 vertices) one arc, so no vertex is singular,
+    # and the remaining faces keep their orientation.
+    p, faces = surfaces.round_sphere(16)
+    rep = topology_report(faces[1:], n_vertices=len(p))
+    assert rep.boundary_edges == 3 and rep.boundary_vertices == 3
+    assert rep.nonmanifold_vertices == 0 and rep.nonmanifold_edges == 0
+    assert rep.consistently_oriented and rep.orientable
+    assert rep.euler_characteristic == 1 and not rep.is_manifold
+    from turnabout.check import check_animation
+
+    (reason,) = check_animation(p, faces[1:], intersections=False).reasons
+    assert "3 boundary edges, 3 boundary vertices" in reason
+    assert "0 non-manifold vertices" in reason
+    # one flipped face is still seen, with or without a boundary
+    f = faces[1:].copy()
+    f[100] = f[100, ::-1]
+    assert not topology_report(f, n_vertices=len(p)).consistently_oriented
+
+
+def test_a_pinched_open_surface_has_its_pinch_as_the_only_singular_vertex():
+    # two disks (spheres missing a face) glued at one vertex: the link there is two circles
+    p, faces = surfaces.round_sphere(4)
+    apex = int(np.argmax(p[:, 2]))
+    assert apex not in faces[0]  # the glued vertex is interior to both disks
+    other = faces[1:] + len(p)
+    other[other == apex + len(p)] = apex
+    rep = topology_report(np.concatenate([faces[1:], other]), n_vertices=2 * len(p))
+    assert rep.nonmanifold_vertices == 1 and rep.boundary_vertices == 6

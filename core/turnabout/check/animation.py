@@ -72,6 +72,7 @@ def judge_frame(
     """The FrameReport of one frame from its metrics (and intersections, if computed)."""
     fails: list[str] = []
     warns: list[str] = []
+    notes: list[str] = []  # true facts of the surface or its sampling, not faults
     worst = (-np.inf, "vertex", 0, "none")
     worst_shape = 0.0  # worst severity excluding jumps (drives the singular clusters)
     for spec in METRICS:
@@ -102,14 +103,15 @@ def judge_frame(
     if max_conc >= th.concentration_warn:
         i = int(cand[j])
         warns.append(
-            f"crease concentrated on edge {i}: {_fmt(fm.crease_deg[i])}° there, "
-            f"{_fmt(fm.crease_concentration[i])} times its neighbours' mean"
+            f"crease concentrated: edge {i} turns {_fmt(fm.crease_deg[i])}°, "
+            f"{_fmt(fm.crease_concentration[i])} times the edges one row over on either side "
+            f"(warns at {th.concentration_warn})"
         )
     if orientable and closed_manifold and np.isfinite(fm.degree):
         expected = chi / 2
         if abs(fm.degree - expected) > th.degree_tolerance:
             warns.append(
-                f"Gauss-map degree {_fmt(fm.degree)} differs from chi/2 = {_fmt(expected)} "
+                f"Gauss-map degree: {_fmt(fm.degree)} differs from chi/2 = {_fmt(expected)} "
                 "(Hopf): neighbouring vertex normals are nearly opposite somewhere"
             )
     singular = []
@@ -127,24 +129,28 @@ def judge_frame(
         degenerate = inter.degenerate_pairs
         if degenerate:
             warns.append(
-                f"{degenerate} face pair(s) touch without crossing cleanly: the frame is not "
-                "generic there"
+                f"touching faces: {degenerate} face pair(s) touch without crossing cleanly: "
+                "the frame is not generic there"
             )
         detections = np.asarray(inter.triple_detections, np.int64)
         sheets = sheets_meeting(detections)
         if np.any(detections % 3 != 0):
-            warns.append("a triple point was not seen by all three of its double curves")
+            warns.append(
+                "unmatched triple point: a triple point was not seen by all three of its "
+                "double curves"
+            )
         on_edge = (sheets == 0) & (detections % 3 == 0)
         if on_edge.any():
-            warns.append(
-                f"{int(on_edge.sum())} triple point(s) on a mesh edge or vertex (seen "
-                f"{int(detections[on_edge].max())} times): the frame is not generic there"
+            notes.append(
+                f"triple points on mesh edges: {int(on_edge.sum())} triple point(s) on a mesh "
+                f"edge or vertex (seen {int(detections[on_edge].max())} times), where the "
+                "sampling puts them"
             )
         multiple = sheets[sheets > 3]
         if multiple.size:
-            warns.append(
-                f"{multiple.size} point(s) where more than three sheets meet (up to "
-                f"{int(multiple.max())}): not generic, as on the axis of a symmetric surface"
+            notes.append(
+                f"multiple points: {multiple.size} point(s) where more than three sheets meet "
+                f"(up to {int(multiple.max())}), as on the axis of a symmetric surface"
             )
         # a point where k sheets meet splits into C(k, 3) triple points under a generic
         # perturbation: that is the count Banchoff's parity applies to
@@ -153,9 +159,9 @@ def judge_frame(
         generic = not singular and degenerate == 0
         if closed_manifold and generic and (generic_count - chi) % 2 != 0:
             warns.append(
-                f"{generic_count} triple point(s), but a generic immersed closed surface with "
-                f"chi = {chi} has a number congruent to chi mod 2 (Banchoff 1974): the frame "
-                "is not generic or the mesh is defective"
+                f"triple-point parity: {generic_count} triple point(s), but a generic immersed "
+                f"closed surface with chi = {chi} has a number congruent to chi mod 2 "
+                "(Banchoff 1974): the frame is not generic or the mesh is defective"
             )
     verdict = "fail" if fails else ("warn" if warns else "ok")
     s, kind, idx, metric = worst
@@ -164,6 +170,8 @@ def judge_frame(
         frame=k,
         verdict=verdict,
         reasons=fails + warns,
+        notes=notes,
+        fail_count=len(fails),
         degree=fm.degree,
         signed_volume=fm.signed_volume,
         triple_point_count=triple_count,
@@ -320,7 +328,8 @@ def check_animation(
     """Judge every frame of an animation of a fixed mesh.
 
     positions : (F, V, 3) or (V, 3) float32/float64; faces : (M, 3) int or a list of
-    polygons (triangulated as fans); times : optional (F,) float; progress(done, total) is
+    polygons (triangulated as fans); times : optional (F,) float, each frame's time (NaN
+    where unknown; reported per frame, null in JSON for NaN); progress(done, total) is
     called once per frame and may raise turnabout.progress.Cancelled; intersections=False
     skips double curves and triple points (the slow part); use_mathutils takes the
     intersection broad phase from Blender's BVH when importable; workers > 1 judges chunks
@@ -337,9 +346,14 @@ def check_animation(
     P = _validated_positions(positions)
     n_frames, n_vertices = P.shape[0], P.shape[1]
     if times is not None:
-        times = np.asarray(times, np.float64).ravel()
-        if times.shape != (n_frames,) or not np.all(np.isfinite(times)):
-            raise CheckInputError(f"times must be {n_frames} finite numbers, one per frame")
+        try:
+            times = np.asarray(times, np.float64).ravel()
+        except (TypeError, ValueError):
+            times = np.zeros(0)
+        if times.shape != (n_frames,) or np.any(np.isinf(times)):
+            raise CheckInputError(
+                f"times must be {n_frames} numbers, one per frame (NaN where unknown)"
+            )
     try:
         tri = as_triangles(faces if isinstance(faces, np.ndarray) else list(faces), n_vertices)
     except TopologyError as exc:
@@ -360,8 +374,9 @@ def check_animation(
     if not treport.is_manifold:
         anim_reasons.append(
             f"the mesh is not a closed 2-manifold ({treport.boundary_edges} boundary edges, "
-            f"{treport.nonmanifold_edges} non-manifold edges, {treport.nonmanifold_vertices} "
-            "non-manifold vertices): it cannot be an immersed closed surface"
+            f"{treport.boundary_vertices} boundary vertices, {treport.nonmanifold_edges} "
+            f"non-manifold edges, {treport.nonmanifold_vertices} non-manifold vertices): it "
+            "cannot be an immersed closed surface"
         )
     orientable = treport.orientable
     chi = treport.euler_characteristic

@@ -19,18 +19,30 @@ from .topology import MeshTopology
 
 _TWO_SQRT3 = 2.0 * np.sqrt(3.0)
 
+# Floor of the neighbours' mean crease angle in the concentration ratio, degrees: an edge
+# beside flat rows is compared with 1 degree, not divided by zero (docs/checker.md).
+CONCENTRATION_FLOOR_DEG = 1.0
+# Gauss-map degrees within this of an integer are that integer (float64 rounding of a sum of
+# solid angles over up to millions of faces stays far below it)
+_DEGREE_SNAP = 1e-9
+
 
 @dataclass(frozen=True)
 class ReferenceFrame:
     """Rest quantities of the first frame, against which pinches are measured.
 
     face_area : (M,) float64; face_quality : (M,) float64 in [0, 1]
+    crease_neighbours : (E, 2) int64, for every edge the edge one row over on each side that
+    is most parallel to it in this frame (-1 where there is none); see
+    :func:`crease_neighbours`.
     """
 
     face_area: np.ndarray
     face_quality: np.ndarray
     inverse_area: np.ndarray  # 1 / face_area (guarded against zero)
     inverse_quality: np.ndarray
+    crease_neighbours: np.ndarray
+    all_crease_neighbours: bool  # every edge has a neighbour on both sides
 
 
 def face_quality(ff: FaceFrame) -> np.ndarray:
@@ -44,15 +56,40 @@ def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return c(P[:, 0]), c(P[:, 1]), c(P[:, 2])
 
 
+def crease_neighbours(P0: np.ndarray, topo: MeshTopology) -> np.ndarray:
+    """(E, 2) int64: per edge and side, the candidate one row over most parallel to the edge.
+
+    P0 : (V, 3) float, the frame whose edge directions decide (the reference frame: a grid's
+    rows keep their directions while it moves). The candidates are
+    :attr:`MeshTopology.edge_row_candidates`, two per side; ties go to the first. -1 where a
+    side has no candidate (boundary and non-manifold edges).
+    """
+    P = np.asarray(P0, np.float64)
+    ev = topo.edges
+    cand = topo.edge_row_candidates  # (E, 2, 2)
+    d = P[ev[:, 1]] - P[ev[:, 0]]
+    d /= np.maximum(np.linalg.norm(d, axis=1, keepdims=True), TINY)
+    c = np.maximum(cand, 0)
+    dc = P[ev[c, 1]] - P[ev[c, 0]]  # (E, 2, 2, 3)
+    dc /= np.maximum(np.linalg.norm(dc, axis=-1, keepdims=True), TINY)
+    par = np.abs(np.einsum("ei,esci->esc", d, dc))
+    par = np.where(cand >= 0, par, -1.0)
+    best = np.argmax(par, axis=2)  # (E, 2)
+    return np.take_along_axis(cand, best[..., None], axis=2)[..., 0]
+
+
 def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:
     """ReferenceFrame of one frame P0 (V, 3)."""
     ff = face_frame(*_components(P0), topo)
     area, quality = 0.5 * ff.dbl, face_quality(ff)
+    nb = crease_neighbours(P0, topo)
     return ReferenceFrame(
         face_area=area,
         face_quality=quality,
         inverse_area=1.0 / np.maximum(area, TINY),
         inverse_quality=1.0 / np.maximum(quality, TINY),
+        crease_neighbours=nb,
+        all_crease_neighbours=bool(np.all(nb >= 0)),
     )
 
 
@@ -63,7 +100,7 @@ class FrameMetrics:
     area_ratio: np.ndarray  # (M,) face area / first-frame area
     quality_ratio: np.ndarray  # (M,) shape quality / first-frame quality
     crease_deg: np.ndarray  # (E,) angle between the two face normals at each edge, degrees
-    crease_concentration: np.ndarray  # (E,) crease angle / mean angle of the 4 wing edges
+    crease_concentration: np.ndarray  # (E,) crease angle / mean of its 2 row neighbours'
     fold: np.ndarray  # (V,) min over incident faces of n_face . n_vertex (1 = flat fan)
     bend_radius: np.ndarray  # (V,) 1 / max |k|, as a fraction of the frame's size
     step: np.ndarray  # (V,) move since the previous frame / local edge length
@@ -80,14 +117,15 @@ def frame_metrics(
     ref: ReferenceFrame,
     previous: np.ndarray | None = None,
     previous_length: np.ndarray | None = None,
-    concentration_floor_deg: float = 1.0,
+    concentration_floor_deg: float = CONCENTRATION_FLOOR_DEG,
     orientable: bool = True,
 ) -> FrameMetrics:
     """All local metrics of one frame P (V, 3).
 
     previous : (V, 3) the frame before (None for the first frame: its steps are 0);
     previous_length : (V,) that frame's ``local_length`` if already known.
-    concentration_floor_deg : floor for the wing mean, so flat parts do not divide by zero.
+    concentration_floor_deg : floor (degrees) for the neighbours' mean angle, so that flat
+    surroundings do not divide by zero.
     orientable : False skips the volume and degree (they need an orientation).
     """
     n = topo.n_vertices
@@ -121,18 +159,18 @@ def frame_metrics(
     crease *= 180.0 / np.pi
     if not topo.is_edge_manifold:
         crease[~topo.manifold_edges] = 0.0
-    wings = topo.edge_wings
-    if topo.is_edge_manifold:
-        wing_mean = crease.take(wings[:, 0])
-        wing_mean += crease.take(wings[:, 1])
-        wing_mean += crease.take(wings[:, 2])
-        wing_mean += crease.take(wings[:, 3])
-        wing_mean *= 0.25
+    # concentration: the edge's angle over the mean angle of its neighbours one row over
+    # (chosen on the reference frame), floored so that flat surroundings do not divide by 0
+    nb = ref.crease_neighbours
+    if ref.all_crease_neighbours:
+        side_mean = crease.take(nb[:, 0])
+        side_mean += crease.take(nb[:, 1])
+        side_mean *= 0.5
     else:
-        ok = wings >= 0
-        vals = np.where(ok, crease[np.maximum(wings, 0)], 0.0)
-        wing_mean = vals.sum(axis=1) / np.maximum(ok.sum(axis=1), 1)
-    concentration = crease / np.maximum(wing_mean, concentration_floor_deg)
+        ok = nb >= 0
+        vals = np.where(ok, crease[np.maximum(nb, 0)], 0.0)
+        side_mean = vals.sum(axis=1) / np.maximum(ok.sum(axis=1), 1)
+    concentration = crease / np.maximum(side_mean, concentration_floor_deg)
 
     # vertex normals (area weighted, fan-oriented) and fold agreement
     idx = topo.corner_index_slot_major
@@ -236,6 +274,12 @@ def frame_metrics(
         den = 1.0 + (ax * bx + ay * by + az * bz) + (bx * qx + by * qy + bz * qz)
         den += qx * ax + qy * ay + qz * az
         degree = float(2.0 * np.arctan2(triple, den).sum() / (4 * np.pi))
+        # an integer up to rounding (the solid angles tile the sphere a whole number of
+        # times): snap float noise to it, so that a torus reports 0.0, never -0.0 or -4e-17
+        nearest = round(degree)
+        if abs(degree - nearest) <= _DEGREE_SNAP:
+            degree = float(nearest)
+        degree += 0.0  # -0.0 -> 0.0
     else:
         volume = float("nan")
         degree = float("nan")

@@ -48,6 +48,15 @@ TABLE_COLUMNS = (
 )
 
 VERDICTS = ("ok", "warn", "fail")
+# Findings come at three levels: a fail or a warning decides the verdict; a note is a true
+# fact of the surface or of its sampling (points where 4 or 8 sheets meet on a symmetry
+# axis, triple points on mesh edges) and leaves the verdict alone.
+LEVELS = ("note", "warn", "fail")
+
+
+def cause_of(finding: str) -> str:
+    """The cause of a reason or note: the words before its first colon ("crease", ...)."""
+    return finding.split(":", 1)[0].strip()
 
 
 def _clean(x: Any) -> Any:
@@ -102,6 +111,8 @@ class FrameReport:
     dome_count: int | None = None
     bowl_count: int | None = None
     saddle_count: int | None = None
+    notes: list[str] = field(default_factory=list)
+    fail_count: int = 0  # the first fail_count reasons are failures, the rest warnings
 
     def to_dict(self) -> dict:
         return _clean(
@@ -135,6 +146,7 @@ class FrameReport:
                 "dome_count": self.dome_count,
                 "bowl_count": self.bowl_count,
                 "saddle_count": self.saddle_count,
+                "notes": list(self.notes),
             }
         )
 
@@ -164,6 +176,74 @@ class AnimationReport:
 
     def warning_frames(self) -> list[int]:
         return [f.frame for f in self.frames if f.verdict == "warn"]
+
+    def noted_frames(self) -> list[int]:
+        """Indices of the frames with notes (whatever their verdict)."""
+        return [f.frame for f in self.frames if f.notes]
+
+    def causes(self, level: str) -> dict[str, int]:
+        """Frames per cause at one level ("fail", "warn" or "note"), most frequent first.
+
+        A frame's reasons list its failures first (``fail_count`` of them), then its
+        warnings; each cause counts once per frame.
+        """
+        if level not in LEVELS:
+            raise ValueError(f"level must be one of {LEVELS}, got {level!r}")
+        count: dict[str, int] = {}
+        for f in self.frames:
+            if level == "note":
+                found = f.notes
+            else:
+                fails = f.reasons[: f.fail_count]
+                found = fails if level == "fail" else f.reasons[len(fails) :]
+            for cause in dict.fromkeys(cause_of(r) for r in found):
+                count[cause] = count.get(cause, 0) + 1
+        return dict(sorted(count.items(), key=lambda kv: (-kv[1], kv[0])))
+
+    def summary_lines(self, shown: int = 20) -> list[str]:
+        """The console summary: frame counts and causes per level, and the orientation."""
+        lines = [f"  {r}" for r in self.reasons]
+        n = len(self.frames)
+        for level, frames in (
+            ("fail", self.failing_frames()),
+            ("warn", self.warning_frames()),
+            ("note", self.noted_frames()),
+        ):
+            if not frames:
+                continue
+            word = {"fail": "failing", "warn": "warning", "note": "noted"}[level]
+            causes = ", ".join(f"{c} {k}" for c, k in self.causes(level).items())
+            listed = ", ".join(str(f) for f in frames[:shown]) + (
+                " ..." if len(frames) > shown else ""
+            )
+            lines.append(f"  {word} frames: {len(frames)} of {n} ({causes}): {listed}")
+        if self.failing_frames():
+            worst = self.frames[self.worst_frame]
+            x, y, z = worst.worst_position
+            lines.append(
+                f"  worst frame {worst.frame}: {worst.reasons[0] if worst.reasons else ''} "
+                f"near ({x:.4g}, {y:.4g}, {z:.4g})"
+            )
+        lines.append(f"  orientation: {self.orientation_summary()}")
+        return lines
+
+    def orientation_summary(self) -> str:
+        """One line on the orientation: of the first and last frames, and whether reversed."""
+        if not self.frames:
+            return "no frames"
+        v0, v1 = self.frames[0].signed_volume, self.frames[-1].signed_volume
+        if not (np.isfinite(v0) and np.isfinite(v1)):
+            return "none (the surface is not orientable)"
+
+        def side(v: float) -> str:
+            return "outward" if v > 0 else ("inward" if v < 0 else "flat (zero volume)")
+
+        text = f"first frame {side(v0)} (volume {v0:.4g}), last frame {side(v1)} ({v1:.4g})"
+        if len(self.frames) > 1 and v0 * v1 < 0:
+            text += ": reversed"
+        elif len(self.frames) > 1 and v0 * v1 > 0:
+            text += ": not reversed"
+        return text
 
     @property
     def worst_frame(self) -> int:
@@ -221,6 +301,7 @@ class AnimationReport:
                 "n_frames": len(self.frames),
                 "failing_frames": self.failing_frames(),
                 "warning_frames": self.warning_frames(),
+                "noted_frames": self.noted_frames(),
                 "worst_frame": self.worst_frame,
                 "intersections_checked": self.intersections_checked,
                 "level_up": None if self.level_up is None else list(self.level_up),
@@ -243,13 +324,13 @@ class AnimationReport:
 
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
-        w.writerow([*TABLE_COLUMNS, "verdict", "reasons"])
+        w.writerow([*TABLE_COLUMNS, "verdict", "reasons", "notes"])
         for f in self.frames:
             row = []
             for col in TABLE_COLUMNS:
                 v = _clean(getattr(f, col))
                 row.append("" if v is None else (f"{v:.9g}" if isinstance(v, float) else v))
-            w.writerow([*row, f.verdict, "; ".join(f.reasons)])
+            w.writerow([*row, f.verdict, "; ".join(f.reasons), "; ".join(f.notes)])
         write_bytes(path, buf.getvalue().encode("utf-8"))
         return Path(path)
 
@@ -311,3 +392,4 @@ class AnimationReport:
         plt.close(fig)
         atomic_write_bytes(Path(path), buf.getvalue())
         return Path(path)
+

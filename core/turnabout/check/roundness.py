@@ -4,8 +4,9 @@ The first frame's sphere is fitted by linear least squares (|p|^2 = 2 c . p + (r
 common practice). The last frame is compared with it both ways: every last-frame vertex must
 lie on the sphere (radial deviation), and every first-frame vertex (a fine sample of the
 sphere) must have a last-frame vertex nearby (coverage, up to the last frame's edge length,
-since a vertex sample is only that dense). The orientation is compared through the signed
-volumes.
+since a vertex sample is only that dense). The orientation and the size are compared
+separately through the signed volumes: the orientation is reversed when their signs differ;
+the size is kept when their magnitudes agree.
 """
 
 from __future__ import annotations
@@ -73,9 +74,10 @@ class EversionCheck:
     last_deviation: float  # last frame -> sphere: max radial deviation / radius
     last_coverage: float  # sphere -> last frame: max nearest-vertex distance / radius
     coverage_allowance: float  # allowed coverage: last frame's longest edge + tolerance
-    orientation_reversed: bool
+    orientation_reversed: bool  # the signed volumes have opposite signs
     volume_ratio: float  # signed volume last / first (-1 for a finished eversion)
     reason: str
+    same_volume: bool = False  # |volume_ratio| within the size allowance of 1
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -113,7 +115,11 @@ def eversion_check(
     cover = nearest_distances(sample, P1, allowance)
     coverage = float(np.max(cover)) / r
     ratio = volume_last / volume_first if volume_first else nan
-    reversed_ = bool(np.isfinite(ratio) and abs(ratio + 1.0) <= 3 * tolerance + 0.02)
+    # orientation: the sign of the ratio; size: its magnitude, allowed 3 x tolerance + 0.02
+    # off 1 (the volume goes with the cube of the radius, and meshes lose a little of it)
+    reversed_ = bool(np.isfinite(ratio) and ratio < 0)
+    size_allowance = 3 * tolerance + 0.02
+    same_size = bool(np.isfinite(ratio) and abs(abs(ratio) - 1.0) <= size_allowance)
     round_ = dev0 <= tolerance
     reasons = []
     if not round_:
@@ -122,8 +128,18 @@ def eversion_check(
         reasons.append(f"the last frame leaves the sphere (deviation {dev1:.3g} r)")
     if not coverage <= allowance / r:
         reasons.append("the last frame does not cover the whole sphere")
-    if not reversed_:
-        reasons.append(f"the orientation is not reversed (volume ratio {ratio:.3g})")
+    if not np.isfinite(ratio):
+        reasons.append("the orientation cannot be compared (the first frame has no volume)")
+    elif not reversed_:
+        reasons.append(
+            f"the orientation is not reversed (signed volume ratio last / first {ratio:+.3g})"
+        )
+    if np.isfinite(ratio) and not same_size:
+        reasons.append(
+            f"the enclosed volume changed: |last / first| = {abs(ratio):.3g} (allowed "
+            f"1 +- {size_allowance:.3g}); the orientation is "
+            f"{'reversed' if reversed_ else 'not reversed'}"
+        )
     everted = not reasons
     return EversionCheck(
         everted=everted,
@@ -136,5 +152,6 @@ def eversion_check(
         coverage_allowance=allowance / r,
         orientation_reversed=reversed_,
         volume_ratio=float(ratio),
+        same_volume=same_size,
         reason="; ".join(reasons) if reasons else "last frame is the first sphere, reversed",
     )

@@ -174,17 +174,42 @@ class MeshTopology:
         return self.manifold_edges & (self._edge_dirs[:, 0] == self._edge_dirs[:, 1])
 
     @cached_property
-    def edge_wings(self) -> np.ndarray:
-        """(E, 4) int64: the other edges of the edge's two faces (-1 where missing)."""
-        out = -np.ones((self.n_edges, 4), np.int64)
+    def edge_row_candidates(self) -> np.ndarray:
+        """(E, 2, 2) int64: the edges one row over on each side of every edge (-1 if none).
+
+        For edge (v0, v1) and its face (v0, v1, a) on side s, the faces across the wing
+        edges (v0, a) and (v1, a) are (v0, a, x) and (v1, a, y); the candidates on that side
+        are their edges (a, x) and (a, y). They touch the apex a, never v0 or v1, so an edge
+        continuing (v0, v1) along its own line is never a candidate. On a regular grid (a
+        quad grid split by diagonals, a triangular lattice) both are parallel to the edge.
+        """
+        out = -np.ones((self.n_edges, 2, 2), np.int64)
+        ev = self.edges
+        fv = self.faces.astype(np.int64)
+        ok_edge = self.manifold_edges
         for side in range(2):
             f = self.edge_faces[:, side]
-            ok = f >= 0
-            fe = self.face_edges[f[ok]]  # (k, 3)
-            e = np.nonzero(ok)[0]
-            others = fe[fe != e[:, None]]
-            if others.size == 2 * e.size:
-                out[e, 2 * side : 2 * side + 2] = others.reshape(-1, 2)
+            e = np.flatnonzero((f >= 0) & ok_edge)
+            f = f[e]
+            fe = self.face_edges[f]  # (k, 3)
+            other = fe != e[:, None]
+            regular = other.sum(axis=1) == 2  # a face repeating a vertex has fewer edges
+            e, f, fe, other = e[regular], f[regular], fe[regular], other[regular]
+            wings = fe[other].reshape(-1, 2)
+            ff = fv[f]
+            # apex: the corner of f that is not an endpoint of e
+            not_end = (ff != ev[e, :1]) & (ff != ev[e, 1:])
+            apex = ff[np.arange(e.size), np.argmax(not_end, axis=1)]
+            for slot in range(2):
+                w = wings[:, slot]
+                good = self.manifold_edges[w]
+                g = np.where(good, self.edge_faces[w].sum(axis=1) - f, 0)
+                ge = self.face_edges[g]  # (k, 3)
+                has_apex = (ev[ge, 0] == apex[:, None]) | (ev[ge, 1] == apex[:, None])
+                pick = has_apex & (ge != w[:, None]) & (ge != e[:, None])
+                found = pick.any(axis=1) & good
+                cand = ge[np.arange(e.size), np.argmax(pick, axis=1)]
+                out[e[found], side, slot] = cand[found]
         return out
 
     @cached_property
@@ -253,27 +278,39 @@ class MeshTopology:
         succ[2 * c + 1] = 2 * nxt1 + d1
         return succ
 
-    def vertex_link_components(self) -> np.ndarray | None:
-        """(V,) int64: number of circles in each vertex's link (1 on a closed 2-manifold).
+    def vertex_link_components(self) -> np.ndarray:
+        """(V,) int64: number of pieces (circles or arcs) in each vertex's link.
 
-        None when some edge does not have exactly two faces. The link walk runs over
-        (corner, direction) states; each circle is traversed once in each direction.
+        The link of v has a node for each edge at v and, for each face at v, a link edge
+        joining that face's two edges at v. On a 2-manifold it is one circle at an interior
+        vertex and one arc at a boundary vertex; two or more pieces make a pinched vertex
+        (two cones touching at their tips). Faces repeating a vertex are left out; unused
+        vertices have 0. Connected pieces by min-label propagation with pointer jumping.
         """
-        w = self._corner_walk
-        if w is None:
-            return None
-        m = self.n_faces
-        succ = self._link_successor
-        lab = np.arange(6 * m)
-        p = succ
-        steps = int(np.ceil(np.log2(max(2, 2 * int(self.vertex_degree.max()))))) + 1
-        for _ in range(steps):
-            lab = np.minimum(lab, lab[p])
-            p = p[p]
-        state_vertex = np.repeat(w["v"], 2)
-        cycles = np.unique(lab)
-        counts = np.bincount(state_vertex[cycles], minlength=self.n_vertices)
-        return counts // 2
+        f = self.faces.astype(np.int64)
+        ok = (f[:, 0] != f[:, 1]) & (f[:, 1] != f[:, 2]) & (f[:, 0] != f[:, 2])
+        f, fe = f[ok], self.face_edges[ok]
+        ev = self.edges
+        v = f.T.ravel()  # corner vertices, slot-major
+        ea = fe.T.ravel()  # edge (corner k, corner k+1)
+        eb = fe[:, [2, 0, 1]].T.ravel()  # edge (corner k+2, corner k)
+        na = 2 * ea + (ev[ea, 0] != v)  # link node: (edge, which end is v)
+        nb = 2 * eb + (ev[eb, 0] != v)
+        label = np.arange(2 * self.n_edges)
+        for _ in range(10_000):  # pointer jumping: a few dozen rounds at most
+            m = np.minimum(label[na], label[nb])
+            new = label.copy()
+            np.minimum.at(new, na, m)
+            np.minimum.at(new, nb, m)
+            new = new[new]
+            if np.array_equal(new, label):
+                break
+            label = new
+        node_vertex = ev.ravel()  # node 2e + s sits at vertex edges[e, s]
+        pieces = np.unique(node_vertex * (2 * self.n_edges) + label)
+        counts = np.bincount(pieces // (2 * self.n_edges), minlength=self.n_vertices)
+        counts[~self.used_vertices] = 0
+        return counts
 
     @cached_property
     def corner_fan_signs(self) -> np.ndarray:
@@ -361,7 +398,7 @@ class TopologyReport:
     closed: bool  # no boundary edge
     boundary_edges: int
     nonmanifold_edges: int  # edges in three or more faces
-    nonmanifold_vertices: int  # vertices whose link is not one circle (closed meshes only)
+    nonmanifold_vertices: int  # vertices whose link is not one circle or one arc
     degenerate_faces: int  # faces repeating a vertex index
     is_manifold: bool  # closed 2-manifold: every edge in two faces, every link one circle
     consistently_oriented: bool
@@ -370,6 +407,7 @@ class TopologyReport:
     euler_characteristic: int
     genus: int | None  # orientable closed connected surfaces
     crosscap_number: int | None  # non-orientable closed connected surfaces (2 - chi)
+    boundary_vertices: int = 0  # manifold vertices on a boundary (their link is one arc)
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -398,12 +436,20 @@ def topology_report(faces, n_vertices: int | None = None) -> TopologyReport:
     degenerate = int(np.sum((f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 0] == f[:, 2])))
     boundary = int(np.sum(topo.edge_face_count == 1))
     nonmanifold = int(np.sum(topo.edge_face_count > 2))
-    links = topo.vertex_link_components() if degenerate == 0 else None
     used = topo.used_vertices
-    bad_vertices = int(np.sum(links[used] != 1)) if links is not None else int(np.sum(used))
+    ev = topo.edges
+    bad = topo.vertex_link_components() != 1
+    bad[ev[topo.edge_face_count > 2].ravel()] = True  # on an edge of three or more faces
+    bad[f[(f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 0] == f[:, 2])].ravel()] = True
+    bad &= used
+    on_boundary = np.zeros(topo.n_vertices, bool)
+    on_boundary[ev[topo.edge_face_count == 1].ravel()] = True
+    bad_vertices = int(np.sum(bad))
+    boundary_vertices = int(np.sum(on_boundary & ~bad))
     signs, comp, orientable = topo.face_orientation_signs()
     n_comp = int(comp.max()) + 1 if comp.size else 0
-    consistent = bool(topo.is_edge_manifold and not np.any(topo.edge_same_direction))
+    # consistent: every edge of two faces is traversed both ways, none is in three or more
+    consistent = bool(nonmanifold == 0 and not np.any(topo.edge_same_direction))
     n_used = int(np.sum(used))
     chi = n_used - topo.n_edges + topo.n_faces
     manifold = boundary == 0 and nonmanifold == 0 and bad_vertices == 0 and degenerate == 0
@@ -430,4 +476,5 @@ def topology_report(faces, n_vertices: int | None = None) -> TopologyReport:
         euler_characteristic=int(chi),
         genus=genus,
         crosscap_number=crosscap,
+        boundary_vertices=boundary_vertices,
     )

@@ -228,8 +228,8 @@ def run(args: argparse.Namespace) -> int:
             f"{t.n_faces} triangles, chi = {t.euler_characteristic}, "
             f"{'orientable' if t.orientable else 'non-orientable'}"
         )
-        for reason in report.reasons:
-            print(f"  {reason}")
+        for line in report.summary_lines():
+            print(line)
         signed = [f.level_signed_count for f in report.frames]
         if report.level_up is not None and None not in signed:
             off = sum(2 * n != t.euler_characteristic for n in signed)
@@ -239,14 +239,5 @@ def run(args: argparse.Namespace) -> int:
                 f"domes + bowls - saddles = {lo if lo == hi else f'{lo}..{hi}'}, chi/2 = "
                 f"{t.euler_characteristic / 2:g}" + (f", differs in {off} frame(s)" if off else "")
             )
-        if failing:
-            worst = report.frames[report.worst_frame]
-            x, y, z = worst.worst_position
-            print(
-                f"  worst frame {worst.frame}: {worst.reasons[0] if worst.reasons else ''} "
-                f"near ({x:.4g}, {y:.4g}, {z:.4g})"
-            )
-            shown = ", ".join(str(f) for f in failing[:20]) + (" ..." if len(failing) > 20 else "")
-            print(f"  failing frames: {shown}")
         print(f"verdict: {report.verdict}; everted: {'yes' if report.everted else 'no'}")
     return 1 if failing else 0

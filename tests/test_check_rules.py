@@ -1,0 +1,157 @@
+"""Each per-frame rule fires on a case made for it: fold, tight bend, Gauss-map degree and
+Banchoff's triple-point parity (a checker that lost one of them fails here)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from turnabout import surfaces
+from turnabout.check import Thresholds, check_animation, self_intersections
+from turnabout.check.metrics import frame_metrics, reference_frame
+from turnabout.check.topology import MeshTopology
+from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+
+
+def _causes(frame) -> list[str]:
+    return [r.split(":")[0] for r in frame.reasons]
+
+
+# ----------------------------------------------------------------------------- fold
+
+
+@pytest.mark.parametrize("height", [1.6, 2.4])
+def test_a_spike_folds_its_fan_by_the_cone_angle(height):
+    # The north pole of a UV sphere pulled up to (0, 0, H): its n fan faces are congruent,
+    # each rising H - z_ring over the distance rho cos(pi / n) from the axis to its ring
+    # chord, so each face normal leans alpha = atan((H - z_ring) / (rho cos(pi / n))) from
+    # the axis; by symmetry the vertex normal is the axis, so fold = cos(alpha) there
+    # (elementary geometry). A fan leaning past 60 degrees is folded (fold_warn 0.5).
+    mesh = uniform_sphere_mesh(32, 16)
+    p = round_sphere_positions(mesh)
+    apex = mesh.n_vertices - 1
+    p[apex] = (0.0, 0.0, height)
+    ring = p[apex - mesh.n_lon]
+    rho, z_ring = np.hypot(ring[0], ring[1]), ring[2]
+    alpha = np.arctan((height - z_ring) / (rho * np.cos(np.pi / mesh.n_lon)))
+    topo = MeshTopology(mesh.triangles(), len(p))
+    fm = frame_metrics(p, topo, reference_frame(p, topo))
+    assert fm.fold[apex] == pytest.approx(np.cos(alpha), rel=1e-9)
+    assert fm.fold[apex] < Thresholds().fold_warn
+    fr = check_animation(p, mesh.triangles(), intersections=False).frames[0]
+    assert "fold" in _causes(fr)
+    assert fr.min_fold <= fm.fold[apex]
+
+
+# ----------------------------------------------------------------------------- tight bend
+
+
+@pytest.mark.parametrize(("bead", "verdict"), [(0.004, "warn"), (0.001, "fail")])
+def test_a_small_bead_beside_a_sphere_is_a_tight_bend_and_nothing_else(bead, verdict):
+    # A sphere of radius r has both principal curvatures 1 / r (do Carmo, "Differential
+    # Geometry of Curves and Surfaces", 1976), so a bead of radius r beside the unit sphere
+    # bends with radius r, as a fraction r / diag of the frame's bounding-box diagonal. The
+    # bead is as well meshed as the big sphere: every other metric is quiet.
+    big, bf = surfaces.round_sphere(12)
+    small, _ = surfaces.round_sphere(12, radius=bead, center=(1.5, 0.0, 0.0))
+    p = np.vstack([big, small])
+    f = np.vstack([bf, bf + len(big)])
+    lo, hi = p.min(axis=0), p.max(axis=0)
+    diag = float(np.linalg.norm(hi - lo))
+    fr = check_animation(p, f).frames[0]
+    assert fr.min_bend_radius == pytest.approx(bead / diag, rel=0.03)
+    assert fr.verdict == verdict
+    assert _causes(fr) == ["tight bend"]
+    assert fr.degree == pytest.approx(2.0)  # Hopf: chi / 2 for two spheres
+
+
+# ----------------------------------------------------------------------------- degree
+
+
+def _vertex_normal_degree_by_preimages(p, f, u):
+    """Degree of the vertex-normal map by counting signed preimages of the direction u.
+
+    The map takes face (a, b, c) to the spherical triangle of its vertex normals; u is
+    inside the cone of (na, nb, nc) when det(na, nb, u), det(nb, nc, u), det(nc, na, u) all
+    have the sign of det(na, nb, nc); the degree is the sum of those signs over the faces
+    (Milnor, "Topology from the Differentiable Viewpoint", 1965: the degree is the signed
+    number of preimages of a regular value).
+    """
+    n = np.cross(p[f[:, 1]] - p[f[:, 0]], p[f[:, 2]] - p[f[:, 0]])
+    vn = np.zeros_like(p)
+    for k in range(3):
+        np.add.at(vn, f[:, k], n)
+    vn /= np.linalg.norm(vn, axis=1, keepdims=True)
+    a, b, c = vn[f[:, 0]], vn[f[:, 1]], vn[f[:, 2]]
+
+    def det(x, y, z):
+        return np.einsum("ij,ij->i", np.cross(x, y), z)
+
+    s = np.sign(det(a, b, c))
+    inside = (np.sign(det(a, b, u[None])) == s) & (np.sign(det(b, c, u[None])) == s)
+    inside &= np.sign(det(c, a, u[None])) == s
+    return int(s[inside].sum())
+
+
+def test_degree_warning_follows_the_vertex_normal_map():
+    # Hopf: an immersed closed oriented surface has Gauss-map degree chi / 2 (H. Hopf,
+    # "Uber die Curvatura integra geschlossener Hyperflachen", Math. Ann. 1926). Crumpled
+    # spheres (random vertex moves) are no immersions: their vertex-normal map may cover
+    # the sphere 0 or 2 times. The checker's degree must agree with a signed preimage count
+    # and warn exactly when it is not chi / 2 = 1.
+    p0, f = surfaces.round_sphere(2)
+    rng = np.random.default_rng(7)
+    u1, u2 = np.array([0.2, -0.5, 0.84]), np.array([-0.7, 0.1, -0.7])
+    off = 0
+    for _ in range(40):
+        p = p0 + rng.normal(scale=0.6, size=p0.shape)
+        expected = _vertex_normal_degree_by_preimages(p, f, u1 / np.linalg.norm(u1))
+        assert expected == _vertex_normal_degree_by_preimages(p, f, u2 / np.linalg.norm(u2))
+        fr = check_animation(p, f, intersections=False).frames[0]
+        assert fr.degree == pytest.approx(expected, abs=1e-9)
+        assert ("Gauss-map degree" in _causes(fr)) == (expected != 1)
+        off += expected != 1
+    assert off >= 3  # the case was made: some crumpled spheres have degree 0 or 2
+
+
+# ----------------------------------------------------------------------------- parity
+
+
+def _turn(a, b):
+    ca, sa, cb, sb = np.cos(a), np.sin(a), np.cos(b), np.sin(b)
+    rz = np.array([[ca, -sa, 0.0], [sa, ca, 0.0], [0.0, 0.0, 1.0]])
+    rx = np.array([[1.0, 0.0, 0.0], [0.0, cb, -sb], [0.0, sb, cb]])
+    return rz @ rx
+
+
+def test_two_triple_points_merged_into_one_break_banchoff_parity():
+    # Three unit spheres, centres (-1/2, 0, 0), (1/2, 0, 0), (0, 0, c): the first two meet
+    # in a circle that the third crosses in two points (the triple points) until, as c
+    # grows, it only touches it and then misses it (elementary geometry). Near that touch
+    # the two points are closer than the checker can tell apart and merge into one: an odd
+    # count on a closed surface of chi = 6. Banchoff: a generic immersed closed surface has
+    # a number of triple points congruent to chi mod 2 (T. Banchoff, "Triple points and
+    # surgery of immersed surfaces", Proc. AMS 46, 1974), so the frame is flagged as not
+    # generic; with two points or none it is not.
+    p, f = surfaces.round_sphere(6)
+    sheets = [p @ _turn(0.3, 0.7).T, p @ _turn(1.1, 0.2).T, p @ _turn(0.5, 1.3).T]
+    faces = np.vstack([f + k * len(p) for k in range(3)])
+    topo = MeshTopology(faces, 3 * len(p))
+
+    def frame(c):
+        return np.vstack([sheets[0] + (-0.5, 0, 0), sheets[1] + (0.5, 0, 0), sheets[2] + (0, 0, c)])
+
+    lo, hi = 1.8, 1.9  # two triple points at lo, none at hi (checked below)
+    counts = {}
+    for _ in range(40):
+        mid = 0.5 * (lo + hi)
+        k = self_intersections(frame(mid), topo).triple_point_count
+        counts[k] = mid
+        if k == 1:
+            break
+        lo, hi = (mid, hi) if k == 2 else (lo, mid)
+    assert set(counts) >= {1}, counts
+    for c, k in ((1.8, 2), (1.9, 0), (counts[1], 1)):
+        fr = check_animation(frame(c), faces).frames[0]
+        assert fr.triple_point_count == k
+        assert fr.singular_point_count == 0 and fr.degenerate_pairs == 0
+        assert ("triple-point parity" in _causes(fr)) == (k % 2 == 1), fr.reasons
