@@ -108,12 +108,18 @@ def grid_candidate_pairs(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float box corners.
 
-    A uniform grid with cells ``cell_scale`` times the mean box extent. A pair is kept only
-    in the first cell (lowest index on every axis) that both boxes cover, so each pair is
-    reported once. Returns two (K,) int64 arrays.
+    A uniform grid with cells ``cell_scale`` times the mean box extent. Inside each cell the
+    boxes are sorted by their low x and only those whose x ranges overlap are paired (a sweep
+    by binary search), so a crowded cell costs its overlapping pairs, not all its pairs. A
+    pair is kept only in the first cell (lowest index on every axis) that both boxes cover,
+    so each pair is reported once. Boxes are compared in float32, widened by one float32
+    step so rounding cannot lose a touching pair. Returns two (K,) int64 arrays.
     """
     lo = np.asarray(lo, np.float64)
     hi = np.asarray(hi, np.float64)
+    m = lo.shape[0]
+    if m < 2:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
     ext = hi - lo
     h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
     origin = lo.min(axis=0)
@@ -128,35 +134,45 @@ def grid_candidate_pairs(
     cy = imin[tri, 1] + (local // sx) % sy
     cz = imin[tri, 2] + local // (sx * sy)
     key = (cx * dims[1] + cy) * dims[2] + cz
-    order = np.argsort(key, kind="stable")
-    key, tri = key[order], tri[order]
+    # a pair belongs to the first cell both boxes cover (the max of their low cells on every
+    # axis): in that cell, on each axis, at least one of the two starts there. Bit k of an
+    # entry's mask says its box starts in the entry's cell on axis k.
+    mask = (cx == imin[tri, 0]).astype(np.uint8)
+    mask |= (cy == imin[tri, 1]).astype(np.uint8) << 1
+    mask |= (cz == imin[tri, 2]).astype(np.uint8) << 2
+    del cx, cy, cz, sx, sy, local
+    lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
+    hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
+    # sweep coordinate: low and high x mapped monotonically into [0, 1/2], so that
+    # "cell rank + x" orders entries by cell, then by x, and a binary search per entry
+    # finds the last partner in its cell whose low x is not beyond its high x
+    x_lo = lo32[:, 0].astype(np.float64)
+    x_hi = hi32[:, 0].astype(np.float64)
+    x0 = float(x_lo.min())
+    scale = 0.5 / max(float(x_hi.max()) - x0, _TINY)
+    order = np.lexsort((x_lo.take(tri), key))
+    key, tri, mask = key[order], tri[order].astype(np.int32), mask[order]
     n = key.size
     new = np.ones(n, bool)
     new[1:] = key[1:] != key[:-1]
-    gstart = np.flatnonzero(new)
-    gsize = np.diff(np.append(gstart, n))
-    partners = np.repeat(gstart + gsize, gsize) - np.arange(n) - 1
-    first, off = _expand_ranges(partners)
+    rank = np.cumsum(new) - 1.0
+    del new, key, order
+    sweep = rank + (x_lo.take(tri) - x0) * scale
+    stop = np.searchsorted(sweep, rank + (x_hi.take(tri) - x0) * scale, side="right")
+    del sweep, rank
+    first, off = _expand_ranges(np.maximum(stop - np.arange(n) - 1, 0))
     second = first + 1 + off
-    cell = key.take(first)
-    a, b = tri.take(first).astype(np.int32), tri.take(second).astype(np.int32)
-    del first, second, off
-    # box overlap, one axis at a time, compacting as we go (contiguous float32 columns;
-    # the boxes were widened by one float32 step so rounding cannot lose a touching pair)
-    lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
-    hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
-    for ax in range(3):
+    del off, stop
+    home = (mask.take(first) | mask.take(second)) == 7
+    a, b = tri.take(first[home]), tri.take(second[home])
+    del first, second, home
+    for ax in (1, 2, 0):  # x last: the sweep only missed pairs tied after rounding
         lo_ax = np.ascontiguousarray(lo32[:, ax])
         hi_ax = np.ascontiguousarray(hi32[:, ax])
         ok = lo_ax.take(a) <= hi_ax.take(b)
         ok &= lo_ax.take(b) <= hi_ax.take(a)
-        a, b, cell = a[ok], b[ok], cell[ok]
-    # de-duplicate: keep a pair in the first cell both boxes cover (max of imin per axis)
-    ix, iy, iz = (np.ascontiguousarray(imin[:, j]) for j in range(3))
-    home = np.maximum(ix.take(a), ix.take(b)) * dims[1] + np.maximum(iy.take(a), iy.take(b))
-    home = home * dims[2] + np.maximum(iz.take(a), iz.take(b))
-    keep = home == cell
-    a, b = a[keep].astype(np.int64), b[keep].astype(np.int64)
+        a, b = a[ok], b[ok]
+    a, b = a.astype(np.int64), b.astype(np.int64)
     swap = a > b
     return np.where(swap, b, a), np.where(swap, a, b)
 
@@ -226,26 +242,67 @@ class _Frame:
         return (signs[0] == signs[1]) & (signs[1] == signs[2])
 
 
-def _edge_events(fr: _Frame, edge_tri: np.ndarray, edge_k: np.ndarray, target: np.ndarray):
-    """Does edge k of triangle edge_tri pierce triangle target?  Returns (hit, point, p, q)."""
-    f = fr.faces
-    i = f[edge_tri, edge_k]
-    j = f[edge_tri, (edge_k + 1) % 3]
-    lo_v, hi_v = np.minimum(i, j), np.maximum(i, j)
-    p, q = fr.P[lo_v], fr.P[hi_v]
-    op = fr.plane_value(target, p)
-    oq = fr.plane_value(target, q)
-    cross = _sign(op) != _sign(oq)
-    hit = np.zeros(target.size, bool)
-    point = np.zeros((target.size, 3))
-    if cross.any():
-        w = np.flatnonzero(cross)
-        ins = fr.inside_line(target[w], p[w], q[w])
-        w = w[ins]
-        hit[w] = True
-        t = op[w] / (op[w] - oq[w])
-        point[w] = p[w] + (q[w] - p[w]) * t[:, None]
+def _inside_line_rows(ids: np.ndarray, corners: np.ndarray, p: np.ndarray, q: np.ndarray):
+    """_Frame.inside_line with the triangles given by rows: the same predicate, same numbers.
+
+    ids : (K, 3) int vertex indices of the triangles; corners : (K, 3, 3) float64 their
+    positions; p, q : (K, 3) float64 the lines' points in canonical order. Returns (K,) bool.
+    """
+    signs = []
+    for k in range(3):
+        kk = (k + 1) % 3
+        i, j = ids[:, k], ids[:, kk]
+        low_first = (i < j)[:, None]
+        u = np.where(low_first, corners[:, k], corners[:, kk])
+        v = np.where(low_first, corners[:, kk], corners[:, k])
+        s = _sign(_orient4(p, q, u, v))
+        signs.append(np.where(low_first[:, 0], s, -s))
+    return (signs[0] == signs[1]) & (signs[1] == signs[2])
+
+
+def _edge_events(
+    ids: np.ndarray,
+    corners: np.ndarray,
+    values: np.ndarray,
+    k: int,
+    target_ids: np.ndarray,
+    target_corners: np.ndarray,
+):
+    """Does edge k of a triangle pierce the target triangle?  Returns (hit, point).
+
+    ids : (K, 3) int the edge's triangle's vertex indices; corners : (K, 3, 3) float64 their
+    positions; values : (K, 3) float64 the target's plane_value at them (the very numbers
+    plane_value gives, so the two pairs sharing an event agree bit for bit); target_ids,
+    target_corners : the target triangles' rows, same shapes.
+    hit : (K,) bool; point : (K, 3) float64 where the edge meets the plane (0 if no hit).
+    """
+    i, j = k, (k + 1) % 3
+    hit = np.zeros(ids.shape[0], bool)
+    point = np.zeros((ids.shape[0], 3))
+    w = np.flatnonzero(_sign(values[:, i]) != _sign(values[:, j]))
+    if w.size == 0:
+        return hit, point
+    swap = ids[w, i] > ids[w, j]  # canonical order: the lower vertex index first
+    lo_c = np.where(swap, j, i)
+    hi_c = np.where(swap, i, j)
+    p, q = corners[w, lo_c], corners[w, hi_c]
+    ins = _inside_line_rows(target_ids[w], target_corners[w], p, q)
+    w, p, q, lo_c, hi_c = w[ins], p[ins], q[ins], lo_c[ins], hi_c[ins]
+    op, oq = values[w, lo_c], values[w, hi_c]
+    hit[w] = True
+    t = op / (op - oq)
+    point[w] = p + (q - p) * t[:, None]
     return hit, point
+
+
+def _plane_values(fr: _Frame, t: np.ndarray, corners: np.ndarray) -> np.ndarray:
+    """plane_value(t, x) at three points per row: corners (K, 3, 3) -> (K, 3) float64.
+
+    The same operations in the same order as _Frame.plane_value, so the same numbers.
+    """
+    d = corners - fr.p0[t][:, None, :]
+    n = fr.normal[t][:, None, :]
+    return n[..., 0] * d[..., 0] + n[..., 1] * d[..., 1] + n[..., 2] * d[..., 2]
 
 
 # --------------------------------------------------------------------------- main
@@ -293,30 +350,26 @@ def self_intersections(
     n_candidates = int(a.size)
 
     # plane straddling (the exact consequence of the event predicate): a pair can have an
-    # event only if one triangle's vertices lie on both sides of the other's plane
-    def straddles(t, s):
-        fs = faces[s]
-        s0 = _sign(fr.plane_value(t, P[fs[:, 0]]))
-        s1 = _sign(fr.plane_value(t, P[fs[:, 1]]))
-        s2 = _sign(fr.plane_value(t, P[fs[:, 2]]))
-        return ~((s0 == s1) & (s1 == s2))
-
-    b_across_a = straddles(a, b)
-    a_across_b = straddles(b, a)
-    keep = b_across_a | a_across_b
+    # event only if one triangle's vertices lie on both sides of the other's plane. The
+    # plane values are computed once per pair and reused by the event tests.
+    ids_a, ids_b = faces[a], faces[b]
+    corners_a, corners_b = P[ids_a], P[ids_b]  # (K, 3, 3)
+    val_a = _plane_values(fr, b, corners_a)  # a's vertices against b's plane
+    val_b = _plane_values(fr, a, corners_b)
+    sa, sb = _sign(val_a), _sign(val_b)
+    keep = (sa.min(axis=1) != sa.max(axis=1)) | (sb.min(axis=1) != sb.max(axis=1))
     a, b = a[keep], b[keep]
+    ids_a, ids_b, corners_a, corners_b = ids_a[keep], ids_b[keep], corners_a[keep], corners_b[keep]
+    val_a, val_b = val_a[keep], val_b[keep]
     k = a.size
     # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
     hits = np.zeros((k, 6), bool)
     points = np.zeros((k, 6, 3))
     keys = np.zeros((k, 6), np.int64)
     for e in range(3):
-        ke = np.full(k, e)
-        h, pt = _edge_events(fr, a, ke, b)
-        hits[:, e], points[:, e] = h, pt
+        hits[:, e], points[:, e] = _edge_events(ids_a, corners_a, val_a, e, ids_b, corners_b)
         keys[:, e] = topo.face_edges[a, e] * m + b
-        h, pt = _edge_events(fr, b, ke, a)
-        hits[:, 3 + e], points[:, 3 + e] = h, pt
+        hits[:, 3 + e], points[:, 3 + e] = _edge_events(ids_b, corners_b, val_b, e, ids_a, corners_a)
         keys[:, 3 + e] = topo.face_edges[b, e] * m + a
     n_ev = hits.sum(axis=1)
     degenerate = int(np.sum((n_ev != 0) & (n_ev != 2)))
@@ -429,10 +482,11 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     # the third sheet must not touch the first two (a local fold is not a triple point)
     faces = fr.faces
     touch = (c == fa) | (c == fb)
+    fc, ffa, ffb = faces[c], faces[fa], faces[fb]
     for i in range(3):
         for j in range(3):
-            touch |= faces[c, i] == faces[fa, j]
-            touch |= faces[c, i] == faces[fb, j]
+            touch |= fc[:, i] == ffa[:, j]
+            touch |= fc[:, i] == ffb[:, j]
     seg_id, c = seg_id[~touch], c[~touch]
     if seg_id.size == 0:
         return empty
