@@ -1,0 +1,80 @@
+"""A small smooth displacement that breaks the symmetry of a built eversion.
+
+The corrugated eversion is symmetric under rotation by a strip's angle, so its singular
+moments come in symmetric sets (eight sheets meet on the axis; quadruple points appear in
+copies at one moment). Such a motion is not in general position. Adding
+
+    P'(t) = P(t) + amplitude * sin(pi t) * w(P0)
+
+with w a smooth field of the material coordinates P0 (the starting-sphere positions) that
+no rotation or reflection maps to itself, gives a motion in general position near the
+original. sin(pi t) vanishes at t = 0 and t = 1, so the start and end spheres stay exact.
+
+The amplitude is a fraction ``eps`` of the shortest edge of any frame. w and its
+derivatives are bounded (|w| <= sqrt(3), |dw| <= max |k| = KMAX), so every vertex moves by
+less than sqrt(3) * eps shortest edges and every edge vector changes by less than
+eps * KMAX * (its rest length) times the shortest edge; for the default eps = 0.02 that is
+far below what could fold a triangle over. :func:`displacement_bound` reports the largest
+relative change of an edge vector over all frames so a caller can check it.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+DEFAULT_EPS = 0.02
+# wave vectors and phases of w: fixed, with no symmetry among them (arbitrary choices)
+_K = np.array([[1.31, -0.47, 0.89], [-0.58, 1.17, 0.71], [0.83, 0.62, -1.29]])
+_PHASE = np.array([0.37, 1.91, 2.73])
+KMAX = float(np.linalg.norm(_K, axis=1).max())
+
+
+def symmetry_breaking_field(rest: np.ndarray) -> np.ndarray:
+    """w(P0) = (sin(k_i . P0 + phase_i))_i: rest (V, 3) float -> (V, 3) float64."""
+    P0 = np.asarray(rest, np.float64)
+    return np.sin(P0 @ _K.T + _PHASE)
+
+
+def shortest_edge(positions: np.ndarray, edges: np.ndarray) -> float:
+    """Shortest edge length over all frames: positions (F, V, 3), edges (E, 2) int."""
+    P = np.asarray(positions, np.float64)
+    d = P[:, edges[:, 1]] - P[:, edges[:, 0]]
+    return float(np.sqrt(np.min(np.einsum("fei,fei->fe", d, d))))
+
+
+def break_symmetry(
+    positions: np.ndarray,
+    faces: np.ndarray,
+    times: np.ndarray | None = None,
+    eps: float = DEFAULT_EPS,
+) -> np.ndarray:
+    """The displaced motion, (F, V, 3) float64.
+
+    positions : (F, V, 3) float, frame 0 the starting sphere (material coordinates);
+    faces : (M, 3) int; times : (F,) float in [0, 1] (default: evenly spaced from 0 to 1);
+    eps : amplitude as a fraction of the shortest edge of any frame (0 < eps <= 0.1).
+    """
+    P = np.asarray(positions, np.float64)
+    if P.ndim != 3 or P.shape[2] != 3 or P.shape[0] < 2:
+        raise ValueError(f"positions must be (frames >= 2, V, 3), got {P.shape}")
+    if not (0.0 < eps <= 0.1):
+        raise ValueError(f"eps must be in (0, 0.1], got {eps!r}")
+    t = np.linspace(0.0, 1.0, P.shape[0]) if times is None else np.asarray(times, float)
+    if t.shape != (P.shape[0],) or t.min() < 0 or t.max() > 1:
+        raise ValueError("times must be one number in [0, 1] per frame")
+    f = np.asarray(faces, np.int64)
+    edges = np.unique(np.sort(np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]]), 1), axis=0)
+    amplitude = eps * shortest_edge(P, edges)
+    w = symmetry_breaking_field(P[0])
+    return P + (amplitude * np.sin(np.pi * t))[:, None, None] * w[None]
+
+
+def displacement_bound(original: np.ndarray, displaced: np.ndarray, faces: np.ndarray) -> float:
+    """Largest |change of an edge vector| / |edge| over all frames and edges (float)."""
+    f = np.asarray(faces, np.int64)
+    e = np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]])
+    A = np.asarray(original, np.float64)
+    B = np.asarray(displaced, np.float64)
+    da = A[:, e[:, 1]] - A[:, e[:, 0]]
+    db = B[:, e[:, 1]] - B[:, e[:, 0]]
+    return float(np.max(np.linalg.norm(db - da, axis=-1) / np.linalg.norm(da, axis=-1)))
