@@ -14,9 +14,15 @@ sampled at ten Chebyshev nodes, which fixes it exactly; its real roots in [0, 1]
 bracketed on a fine grid and refined by bisection; each root's common point is kept when
 it lies inside all four moving triangles.
 
-Candidates: the quadruples of triangles whose swept boxes (the box of a triangle's six
-positions at s = 0 and s = 1, which holds the whole moving triangle) overlap pairwise and
-that share no vertex, enumerated as 4-cliques of the swept-overlap graph.
+Candidates grow from the triple points at the two ends of the interval (the moving triple
+point of three sheets is what meets the fourth): each triple of triangles is widened by
+letting one triangle be any that shares a vertex with it (the triple point may cross an
+edge during the interval), and a fourth triangle is any that may meet all three while
+moving: no shared vertex, overlapping boxes of the six end positions (the convex hull of
+which holds the moving triangle), and no separation along either mid-motion normal. This
+assumes each triple point crosses at most about one triangle edge per frame interval,
+which holds when frames are fine enough that a vertex moves less than about an edge
+length per frame (the default eversion's frame count is chosen so).
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -40,10 +46,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..progress import ProgressFn, no_progress
-from .intersections import grid_candidate_pairs
+from .intersections import grid_candidate_pairs, self_intersections
 from .topology import MeshTopology, as_triangles
 
 DEGREE = 9  # degree of D(s)
+CHUNK = 20000  # quadruples solved at once (memory: about 10 kB each)
 ROOT_GRID = 256  # samples of D(s) on [0, 1] used to bracket its roots
 SAME_MOMENT = 1e-7  # detections closer than this in s (and in space) are one point
 SAME_PLACE = 1e-6  # ... in space, as a fraction of the mean edge length
@@ -104,9 +111,12 @@ class QuadruplePoints:
 
 
 def swept_pairs(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
-    """Pairs (a, b), a < b, of triangles sharing no vertex whose swept boxes overlap.
+    """Pairs (a, b), a < b, of triangles sharing no vertex that may meet while moving.
 
-    P0, P1 : (V, 3) float64 positions at the interval's ends. Returns two (K,) int64.
+    P0, P1 : (V, 3) float64 positions at the ends of a (short) linear motion. The moving
+    triangle stays in the convex hull of its six end positions; a pair is kept when the
+    hulls' boxes overlap and neither triangle's mid-motion normal separates the hulls
+    (a separating axis rules out any contact). Returns two (K,) int64.
     """
     faces = topo.faces
     corners = np.concatenate([P0[faces], P1[faces]], axis=1)  # (M, 6, 3)
@@ -116,36 +126,105 @@ def swept_pairs(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
     for i in range(3):
         for j in range(3):
             share |= fa[:, i] == fb[:, j]
-    return a[~share], b[~share]
+    a, b = a[~share], b[~share]
+    mid = 0.5 * (corners[:, :3] + corners[:, 3:])
+    n = np.cross(mid[:, 1] - mid[:, 0], mid[:, 2] - mid[:, 0])
+    n /= np.maximum(np.linalg.norm(n, axis=1, keepdims=True), 1e-300)
+    keep = np.ones(a.size, bool)
+    for t, o in ((a, b), (b, a)):
+        own = np.einsum("kvi,ki->kv", corners[t], n[t])
+        other = np.einsum("kvi,ki->kv", corners[o], n[t])
+        margin = 1e-9 * (np.abs(own).max(axis=1) + np.abs(other).max(axis=1))
+        keep &= ~(
+            (other.min(axis=1) > own.max(axis=1) + margin)
+            | (other.max(axis=1) < own.min(axis=1) - margin)
+        )
+    return a[keep], b[keep]
 
 
-def _cliques(a: np.ndarray, b: np.ndarray, m: int) -> np.ndarray:
-    """4-cliques (Q, 4) int64, increasing in each row, of the graph with edges a < b."""
-    order = np.lexsort((b, a))
-    a, b = a[order], b[order]
-    keys = a * m + b
-    start = np.searchsorted(a, np.arange(m + 1))
+def face_rings(topo: MeshTopology) -> tuple[np.ndarray, np.ndarray]:
+    """Faces sharing a vertex with each face (itself included), as CSR (start (M+1,), ids)."""
+    m = topo.n_faces
+    f = np.repeat(np.arange(m), 3)
+    v = topo.faces.ravel()
+    order = np.argsort(v, kind="stable")
+    v, f = v[order], f[order]
+    vstart = np.searchsorted(v, np.arange(topo.n_vertices + 1))
+    cnt = np.diff(vstart)[v]  # faces at each corner's vertex
+    owner = np.repeat(f, cnt)
+    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    other = f[np.repeat(vstart[v], cnt) + local]
+    key = np.unique(owner * m + other)
+    return np.searchsorted(key // m, np.arange(m + 1)), key % m
+
+
+def _csr_pairs(a: np.ndarray, b: np.ndarray, m: int):
+    """Symmetric adjacency of the pairs (a, b) as CSR (start (m+1,), ids) and sorted keys."""
+    u = np.concatenate([a, b])
+    w = np.concatenate([b, a])
+    key = np.unique(u * m + w)
+    return np.searchsorted(key // m, np.arange(m + 1)), key % m, key
+
+
+def _expand(start: np.ndarray, ids: np.ndarray, rows: np.ndarray, col: int) -> np.ndarray:
+    """Rows (R, k) with column ``col`` replaced by each of its CSR neighbours: (R', k)."""
+    v = rows[:, col]
+    cnt = start[v + 1] - start[v]
+    owner = np.repeat(np.arange(rows.shape[0]), cnt)
+    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    out = rows[owner].copy()
+    out[:, col] = ids[start[v[owner]] + local]
+    return out
+
+
+def seeded_quadruples(
+    triples: np.ndarray, P0: np.ndarray, P1: np.ndarray, topo: MeshTopology
+) -> np.ndarray:
+    """Candidate quadruples (Q, 4) int64 (sorted rows, unique) grown from triple points.
+
+    triples : (T, 3) int the three triangles of each triple point seen at either end of the
+    interval. Each triple is widened by letting one of its triangles be any triangle that
+    shares a vertex with it (the triple point may cross an edge during the interval); two
+    widened triples sharing two triangles whose other two may meet (swept_pairs) make a
+    quadruple.
+    """
+    m = topo.n_faces
+    if triples.shape[0] == 0:
+        return np.zeros((0, 4), np.int64)
+    rs, rid = face_rings(topo)
+    t = np.sort(np.asarray(triples, np.int64), axis=1)
+    wide = np.unique(np.sort(np.concatenate([_expand(rs, rid, t, c) for c in range(3)]), 1), axis=0)
+    wide = wide[(wide[:, 0] != wide[:, 1]) & (wide[:, 1] != wide[:, 2])]
+    a, b = swept_pairs(P0, P1, topo)
+    ps, pid, keys = _csr_pairs(a, b, m)
 
     def has(u, v):
         k = u * m + v
-        pos = np.minimum(np.searchsorted(keys, k), keys.size - 1)
+        pos = np.minimum(np.searchsorted(keys, k), max(keys.size - 1, 0))
         return keys[pos] == k if keys.size else np.zeros(k.shape, bool)
 
-    def extend(rows: np.ndarray) -> np.ndarray:
-        """Rows (R, j) -> (R', j + 1): add a vertex after the last, adjacent to all."""
-        last = rows[:, -1]
-        cnt = start[last + 1] - start[last]
-        owner = np.repeat(np.arange(rows.shape[0]), cnt)
-        local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-        nxt = b[start[last[owner]] + local]
-        ok = np.ones(owner.size, bool)
-        for j in range(rows.shape[1] - 1):
-            ok &= has(rows[owner, j], nxt)
-        return np.column_stack([rows[owner[ok]], nxt[ok]])
-
-    if a.size == 0:
-        return np.zeros((0, 4), np.int64)
-    return extend(extend(np.column_stack([a, b])))
+    # the widened triple must itself be pairwise in the swept graph
+    ok = has(wide[:, 0], wide[:, 1]) & has(wide[:, 0], wide[:, 2]) & has(wide[:, 1], wide[:, 2])
+    wide = wide[ok]
+    # two widened triples sharing two triangles make a quadruple (near the moment all four
+    # of its triples are triple points, so at least two of them are seen)
+    pair_key = np.concatenate([wide[:, 0] * m + wide[:, 1], wide[:, 0] * m + wide[:, 2],
+                               wide[:, 1] * m + wide[:, 2]])  # fmt: skip
+    third = np.concatenate([wide[:, 2], wide[:, 1], wide[:, 0]])
+    order = np.lexsort((third, pair_key))
+    pair_key, third = pair_key[order], third[order]
+    new = np.ones(pair_key.size, bool)
+    new[1:] = pair_key[1:] != pair_key[:-1]
+    gstart = np.flatnonzero(new)
+    gsize = np.diff(np.append(gstart, pair_key.size))
+    partners = np.repeat(gstart + gsize, gsize) - np.arange(pair_key.size) - 1
+    first = np.repeat(np.arange(pair_key.size), partners)
+    second = first + 1 + np.arange(first.size) - np.repeat(np.cumsum(partners) - partners, partners)
+    c, d = third[first], third[second]
+    ok = (c != d) & has(np.minimum(c, d), np.maximum(c, d))
+    pk = pair_key[first[ok]]
+    quad = np.sort(np.column_stack([pk // m, pk % m, c[ok], d[ok]]), axis=1)
+    return np.unique(quad, axis=0) if quad.size else np.zeros((0, 4), np.int64)
 
 
 # --------------------------------------------------------------------------- D(s)
@@ -204,11 +283,16 @@ def _roots(coef: np.ndarray, scale: np.ndarray):
 def _common_point(rows: np.ndarray) -> np.ndarray:
     """Least-squares point of planes rows (Q, k, 4) (n . x + d = 0): (Q, 3)."""
     A, d = rows[..., :3], -rows[..., 3]
-    An = A / np.linalg.norm(A, axis=-1, keepdims=True)
-    dn = d / np.linalg.norm(A, axis=-1)
+    size = np.maximum(np.linalg.norm(A, axis=-1), 1e-300)
+    An = A / size[..., None]
+    dn = d / size
     AtA = np.einsum("qki,qkj->qij", An, An)
     Atb = np.einsum("qki,qk->qi", An, dn)
-    return np.linalg.solve(AtA, Atb[..., None])[..., 0]
+    x = np.full((A.shape[0], 3), np.nan)
+    ok = np.abs(np.linalg.det(AtA)) > 1e-12
+    if ok.any():
+        x[ok] = np.linalg.solve(AtA[ok], Atb[ok][..., None])[..., 0]
+    return x
 
 
 def _inside(C: np.ndarray, x: np.ndarray, tol: float = INSIDE_TOL) -> np.ndarray:
@@ -230,7 +314,12 @@ def _tetra_sign(C0, C1, s) -> np.ndarray:
     pts = []
     for skip in range(4):
         sub = np.delete(rows, skip, axis=1)
-        pts.append(np.linalg.solve(sub[..., :3], -sub[..., 3:])[..., 0])
+        M = sub[..., :3]
+        p = np.zeros((M.shape[0], 3))
+        ok = np.abs(np.linalg.det(M)) > 0
+        if ok.any():
+            p[ok] = np.linalg.solve(M[ok], -sub[ok][..., 3:])[..., 0]
+        pts.append(p)
     e1, e2, e3 = pts[1] - pts[0], pts[2] - pts[0], pts[3] - pts[0]
     return np.sign(np.sum(np.cross(e1, e2) * e3, axis=-1))
 
@@ -238,17 +327,33 @@ def _tetra_sign(C0, C1, s) -> np.ndarray:
 # --------------------------------------------------------------------------- per interval
 
 
-def quadruple_points_between(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
+def quadruple_points_between(
+    P0: np.ndarray, P1: np.ndarray, topo: MeshTopology, triples: np.ndarray
+):
     """Quadruple points while the vertices move linearly from P0 to P1 ((V, 3) float).
 
-    Returns (s (N,), position (N, 3), faces (N, 4), confirmed (N,), flat_quadruples,
-    candidates): unmerged detections; flat_quadruples counts quadruples whose four planes
-    keep a common point for the whole interval.
+    triples : (T, 3) int triangles of the triple points at either end (seeds of the
+    candidates, see seeded_quadruples). Returns unmerged detections (s (N,), position
+    (N, 3), faces (N, 4), confirmed (N,)), the count of quadruples whose four planes keep a
+    common point for the whole interval, and the count of candidates.
     """
     P0 = np.asarray(P0, np.float64)
     P1 = np.asarray(P1, np.float64)
-    a, b = swept_pairs(P0, P1, topo)
-    quads = _cliques(a, b, topo.n_faces)
+    quads = seeded_quadruples(triples, P0, P1, topo)
+    empty = (np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4), np.int64), np.zeros(0, bool))
+    if quads.shape[0] == 0:
+        return (*empty, 0, 0)
+    if quads.shape[0] > CHUNK:
+        out = [quadruple_points_between_quads(P0, P1, topo, quads[i : i + CHUNK])
+               for i in range(0, quads.shape[0], CHUNK)]  # fmt: skip
+        return (np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out]),
+                np.concatenate([o[2] for o in out]), np.concatenate([o[3] for o in out]),
+                sum(o[4] for o in out), int(quads.shape[0]))  # fmt: skip
+    return quadruple_points_between_quads(P0, P1, topo, quads)
+
+
+def quadruple_points_between_quads(P0, P1, topo: MeshTopology, quads: np.ndarray):
+    """quadruple_points_between for given candidate quadruples (Q, 4) int64."""
     empty = (np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4), np.int64), np.zeros(0, bool))
     if quads.shape[0] == 0:
         return (*empty, 0, 0)
@@ -264,7 +369,8 @@ def quadruple_points_between(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology)
         return (*empty, int(flat.sum()), int(quads.shape[0]))
     Cs = C0[q] + (C1[q] - C0[q]) * s[:, None, None, None]
     x = _common_point(_planes(C0[q], C1[q], s[:, None]))
-    ok = _inside(Cs, x)
+    ok = np.all(np.isfinite(x), axis=1)
+    ok[ok] = _inside(Cs[ok], x[ok])
     q, s, x = q[ok], s[ok], x[ok]
     delta = np.full(s.size, 1e-4)
     confirmed = _tetra_sign(C0[q], C1[q], np.clip(s - delta, 0, 1)) != _tetra_sign(
@@ -315,13 +421,18 @@ def _sheet_count(face_ids: set[int], faces: np.ndarray) -> int:
 
 
 def quadruple_points(
-    positions, faces, progress: ProgressFn | None = None, times=None
+    positions,
+    faces,
+    progress: ProgressFn | None = None,
+    frame_intersections: dict | None = None,
 ) -> QuadruplePoints:
     """Quadruple points of an animation of a fixed triangle mesh.
 
-    positions : (F, V, 3) float32/float64 (F >= 2); faces : (M, 3) int; times : optional
-    (F,) float frame times (the reported moments are interpolated in them; default: frame
-    numbers). progress(done, total) is called once per interval.
+    positions : (F, V, 3) float32/float64 (F >= 2); faces : (M, 3) int;
+    frame_intersections : optional {frame: IntersectionResult} already computed for these
+    positions (a frame missing from it has no triple point); computed here when None.
+    progress(done, total) is called once per frame computed and once per interval.
+    Moments are in frames (k + s).
     """
     progress = no_progress if progress is None else progress
     P = np.asarray(positions, np.float64)
@@ -329,17 +440,33 @@ def quadruple_points(
         raise ValueError(f"positions must be (frames >= 2, V, 3), got {P.shape}")
     tri = as_triangles(np.asarray(faces), P.shape[1])
     topo = MeshTopology(tri, P.shape[1])
-    ft = np.arange(P.shape[0], dtype=np.float64) if times is None else np.asarray(times, float)
-    n_int = P.shape[0] - 1
+    n_frames = P.shape[0]
+    n_int = n_frames - 1
     parts = []
     flat_total = 0
     cand_total = 0
+    crowded_frames = 0
+    total = n_int + (0 if frame_intersections is not None else n_frames)
+    done = 0
+    if frame_intersections is None:
+        frame_intersections = {}
+        for k in range(n_frames):
+            frame_intersections[k] = self_intersections(P[k], topo)
+            done += 1
+            progress(done, total)
+    triples = []
+    for k in range(n_frames):
+        res = frame_intersections.get(k)
+        triples.append(np.zeros((0, 3), np.int64) if res is None else res.triple_faces)
+        crowded_frames += int(res is not None and np.any(res.triple_detections > 3))
     for k in range(n_int):
-        s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo)
+        seeds = np.concatenate([np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))])
+        s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
         flat_total += flat
         cand_total += cand
         parts.append((np.full(s.size, k), s, x, fq, conf))
-        progress(k + 1, n_int)
+        done += 1
+        progress(done, total)
     interval = np.concatenate([p[0] for p in parts]).astype(np.int64)
     s = np.concatenate([p[1] for p in parts])
     x = np.concatenate([p[2] for p in parts]).reshape(-1, 3)
@@ -368,15 +495,19 @@ def quadruple_points(
             "their moment with another one elsewhere (symmetric copies): the motion is not in "
             "general position"
         )
+    if crowded_frames:
+        notes.append(
+            f"{crowded_frames} frame(s) with points where more than three sheets meet "
+            "(coincident triple points): the motion is not in general position"
+        )
     if flat_total:
         notes.append(
             f"{flat_total} quadruple(s) of triangles whose planes keep a common point for a "
             "whole interval: the motion is not in general position"
         )
-    when = ft[it] + (ft[np.minimum(it + 1, n_int)] - ft[it]) * sk
     return QuadruplePoints(
         interval=it,
-        time=when,
+        time=it + sk,
         position=x[keep],
         faces=fq[keep],
         confirmed=conf[keep],
