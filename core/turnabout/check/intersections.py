@@ -349,18 +349,23 @@ def self_intersections(
     a, b = a[keep_pair], b[keep_pair]
     n_candidates = int(a.size)
 
-    # plane straddling (the exact consequence of the event predicate): a pair can have an
-    # event only if one triangle's vertices lie on both sides of the other's plane. The
-    # plane values are computed once per pair and reused by the event tests.
-    ids_a, ids_b = faces[a], faces[b]
-    corners_a, corners_b = P[ids_a], P[ids_b]  # (K, 3, 3)
+    # plane straddling: two triangles can cross only where each has vertices on both sides
+    # of the other's plane (an edge of one piercing the other puts a point of the other on
+    # the first one's plane). Tested one direction at a time, on the survivors of the
+    # first; the plane values are kept for the event tests.
+    ids_a = faces[a]
+    corners_a = P[ids_a]  # (K, 3, 3)
     val_a = _plane_values(fr, b, corners_a)  # a's vertices against b's plane
+    sa = _sign(val_a)
+    keep = sa.min(axis=1) != sa.max(axis=1)
+    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
+    ids_b = faces[b]
+    corners_b = P[ids_b]
     val_b = _plane_values(fr, a, corners_b)
-    sa, sb = _sign(val_a), _sign(val_b)
-    keep = (sa.min(axis=1) != sa.max(axis=1)) | (sb.min(axis=1) != sb.max(axis=1))
-    a, b = a[keep], b[keep]
-    ids_a, ids_b, corners_a, corners_b = ids_a[keep], ids_b[keep], corners_a[keep], corners_b[keep]
-    val_a, val_b = val_a[keep], val_b[keep]
+    sb = _sign(val_b)
+    keep = sb.min(axis=1) != sb.max(axis=1)
+    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
+    ids_b, corners_b, val_b = ids_b[keep], corners_b[keep], val_b[keep]
     k = a.size
     # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
     hits = np.zeros((k, 6), bool)
