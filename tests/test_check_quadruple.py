@@ -147,3 +147,59 @@ def test_bad_input_is_refused(eps):
         break_symmetry(P, F, eps=eps)
     with pytest.raises(ValueError, match="positions"):
         quadruple_points(P[:1], F)
+
+
+# --------------------------------------------------------------------------- the eversion
+
+
+@pytest.fixture(scope="module")
+def coarse_eversion():
+    from turnabout.eversion import Controls, default_mesh, evaluate
+
+    c = Controls()
+    mesh = default_mesh(c, n_lon=64, n_lat=16, spacing="even")
+    return c, mesh, evaluate(c, [0.0], mesh)[0], mesh.triangles()
+
+
+def test_symmetry_breaking_keeps_the_spheres_and_every_triangle_the_same_way_up(coarse_eversion):
+    from turnabout.eversion import evaluate
+    from turnabout.eversion.generic import KMAX, break_symmetry, displacement_bound
+
+    c, mesh, _, F = coarse_eversion
+    t = np.linspace(0.0, 1.0, 25)
+    P = evaluate(c, t, mesh)
+    G = break_symmetry(P, F, t, eps=0.05)
+    assert np.array_equal(G[0], P[0]) and np.allclose(G[-1], P[-1], atol=1e-15)
+    assert 0 < displacement_bound(P, G, F) <= 0.05 * KMAX
+    # an immersion stays one: no triangle turns over or collapses (each turns < 26 degrees)
+    def normals(X):
+        T = X[:, F]
+        n = np.cross(T[:, :, 1] - T[:, :, 0], T[:, :, 2] - T[:, :, 0])
+        return n / np.linalg.norm(n, axis=-1, keepdims=True)
+
+    assert np.min(np.sum(normals(P) * normals(G), axis=-1)) > 0.9
+    before = check_animation(P, F, intersections=False)
+    after = check_animation(G, F, intersections=False)
+    assert [f.degree for f in after.frames] == pytest.approx([f.degree for f in before.frames])
+
+
+def test_the_symmetric_eversion_is_not_in_general_position_and_the_displaced_one_loses_its_copies(
+    coarse_eversion,
+):
+    # the corrugated eversion is symmetric under a turn by one strip: eight sheets meet on
+    # the axis and quadruple points come in copies at one moment. Breaking the symmetry
+    # removes both (what may remain in so coarse a mesh: crowded triple points)
+    from turnabout.eversion import evaluate
+    from turnabout.eversion.generic import break_symmetry
+
+    c, mesh, rest, F = coarse_eversion
+    t = np.linspace(0.55, 0.6, 6)
+    P = evaluate(c, t, mesh)
+    sym = quadruple_points(P, F)
+    assert not sym.general_position
+    assert any("more than four sheets meet (up to 8)" in n for n in sym.notes)
+    assert any("symmetric copies" in n for n in sym.notes)
+    gen = quadruple_points(break_symmetry(P, F, t, eps=0.1, rest=rest), F)
+    assert gen.count > 0 and np.all(gen.confirmed)
+    assert not any("more than four sheets" in n or "symmetric copies" in n for n in gen.notes)
+    assert not any("common point for a whole interval" in n for n in gen.notes)

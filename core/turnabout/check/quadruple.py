@@ -434,6 +434,8 @@ def quadruple_points(
     progress(done, total) is called once per frame computed and once per interval.
     Moments are in frames (k + s).
     """
+    from .animation import sheets_meeting
+
     progress = no_progress if progress is None else progress
     P = np.asarray(positions, np.float64)
     if P.ndim != 3 or P.shape[0] < 2 or P.shape[2] != 3:
@@ -458,7 +460,10 @@ def quadruple_points(
     for k in range(n_frames):
         res = frame_intersections.get(k)
         triples.append(np.zeros((0, 3), np.int64) if res is None else res.triple_faces)
-        crowded_frames += int(res is not None and np.any(res.triple_detections > 3))
+        if res is not None and res.triple_detections.size:
+            # detection counts that only k >= 4 sheets through one point explain (several
+            # distinct triple points merged in a crumpled region give other multiples of 3)
+            crowded_frames += int(np.any(sheets_meeting(res.triple_detections) >= 4))
     for k in range(n_int):
         seeds = np.concatenate([np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))])
         s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
@@ -497,7 +502,7 @@ def quadruple_points(
         )
     if crowded_frames:
         notes.append(
-            f"{crowded_frames} frame(s) with points where more than three sheets meet "
+            f"{crowded_frames} frame(s) with points where four or more sheets meet "
             "(coincident triple points): the motion is not in general position"
         )
     if flat_total:

@@ -55,13 +55,15 @@ def break_symmetry(
     faces: np.ndarray,
     times: np.ndarray | None = None,
     eps: float = DEFAULT_EPS,
+    rest: np.ndarray | None = None,
 ) -> np.ndarray:
     """The displaced motion, (F, V, 3) float64.
 
     positions : (F, V, 3) float, frame 0 the starting sphere (material coordinates);
     faces : (M, 3) int; times : (F,) float in [0, 1] (default: evenly spaced from 0 to 1);
     eps : amplitude as a fraction of the strongest compression (0 < eps <= 0.1); every
-    edge vector changes by less than eps * KMAX of its length.
+    edge vector changes by less than eps * KMAX of its length; rest : (V, 3) float the
+    starting-sphere positions when frame 0 is not the start (a window of the motion).
     """
     P = np.asarray(positions, np.float64)
     if P.ndim != 3 or P.shape[2] != 3 or P.shape[0] < 2:
@@ -73,8 +75,11 @@ def break_symmetry(
         raise ValueError("times must be one number in [0, 1] per frame")
     f = np.asarray(faces, np.int64)
     edges = np.unique(np.sort(np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]]), 1), axis=0)
-    amplitude = eps * strongest_compression(P, edges)
-    w = symmetry_breaking_field(P[0])
+    P0 = P[0] if rest is None else np.asarray(rest, np.float64)
+    if P0.shape != P.shape[1:]:
+        raise ValueError(f"rest must be ({P.shape[1]}, 3), got {P0.shape}")
+    amplitude = eps * strongest_compression(np.concatenate([P0[None], P]), edges)
+    w = symmetry_breaking_field(P0)
     return P + (amplitude * np.sin(np.pi * t))[:, None, None] * w[None]
 
 
