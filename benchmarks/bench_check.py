@@ -145,8 +145,10 @@ def bench_eversion_frames(repeat: int) -> None:
     self_intersections(P[0], topo)  # warm the topology's caches
     print(f"self-intersection: default eversion frames, {faces.shape[0]} triangles "
           f"(best of {repeat}; ratios per round: min-max)")  # fmt: skip
-    print("  frame  candidates  segments  curves  triples | ours ms  build ms  overlap ms | "
-          "x overlap       x build+overlap")
+    print(
+        "  frame  candidates  segments  curves  triples | ours ms  build ms  overlap ms | "
+        "x overlap       x build+overlap"
+    )
     all_r1, all_r2 = [], []
     for k, frame in enumerate(EVERSION_FRAMES):
         p = P[k]

@@ -119,7 +119,9 @@ def test_check_animation_reports_quadruple_points_in_json():
     qp = d["quadruple_points"]
     assert qp["count"] == 1 and qp["general_position"] is True
     (pt,) = qp["points"]
-    assert pt["frames"][1] == pt["frames"][0] + 1 and pt["frames"][0] <= pt["time"] <= pt["frames"][1]
+    assert (
+        pt["frames"][1] == pt["frames"][0] + 1 and pt["frames"][0] <= pt["time"] <= pt["frames"][1]
+    )
     assert len(pt["faces"]) == 4 and len(pt["position"]) == 3
     assert check_animation(P, F).to_dict()["quadruple_points"] is None
 
@@ -171,6 +173,7 @@ def test_symmetry_breaking_keeps_the_spheres_and_every_triangle_the_same_way_up(
     G = break_symmetry(P, F, t, eps=0.05)
     assert np.array_equal(G[0], P[0]) and np.allclose(G[-1], P[-1], atol=1e-15)
     assert 0 < displacement_bound(P, G, F) <= 0.05 * KMAX
+
     # an immersion stays one: no triangle turns over or collapses (each turns < 26 degrees)
     def normals(X):
         T = X[:, F]

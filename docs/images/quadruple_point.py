@@ -35,8 +35,8 @@ def main() -> Path:
     frames = []
     for t in np.linspace(0.0, 1.0, 12):
         R = 0.85 + 0.3 * t
-        frames.append(np.concatenate(
-            [p0 @ turn(0.3 + 0.7 * i, 0.2 + 0.5 * i).T + R * tetra[i] for i in range(4)]))  # fmt: skip
+        spheres = [p0 @ turn(0.3 + 0.7 * i, 0.2 + 0.5 * i).T + R * tetra[i] for i in range(4)]
+        frames.append(np.concatenate(spheres))
     P = np.array(frames)
     faces = np.concatenate([f + i * len(p0) for i in range(4)])
     q = quadruple_points(P, faces)

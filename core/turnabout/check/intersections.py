@@ -374,7 +374,9 @@ def self_intersections(
     for e in range(3):
         hits[:, e], points[:, e] = _edge_events(ids_a, corners_a, val_a, e, ids_b, corners_b)
         keys[:, e] = topo.face_edges[a, e] * m + b
-        hits[:, 3 + e], points[:, 3 + e] = _edge_events(ids_b, corners_b, val_b, e, ids_a, corners_a)
+        hits[:, 3 + e], points[:, 3 + e] = _edge_events(
+            ids_b, corners_b, val_b, e, ids_a, corners_a
+        )
         keys[:, 3 + e] = topo.face_edges[b, e] * m + a
     n_ev = hits.sum(axis=1)
     degenerate = int(np.sum((n_ev != 0) & (n_ev != 2)))

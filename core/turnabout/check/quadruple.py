@@ -100,7 +100,11 @@ class QuadruplePoints:
                     "confirmed": bool(c),
                 }
                 for k, t, p, fs, c in zip(
-                    self.interval, self.time, self.position, self.faces, self.confirmed,
+                    self.interval,
+                    self.time,
+                    self.position,
+                    self.faces,
+                    self.confirmed,
                     strict=True,
                 )
             ],
@@ -465,7 +469,9 @@ def quadruple_points(
             # distinct triple points merged in a crumpled region give other multiples of 3)
             crowded_frames += int(np.any(sheets_meeting(res.triple_detections) >= 4))
     for k in range(n_int):
-        seeds = np.concatenate([np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))])
+        seeds = np.concatenate(
+            [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
+        )
         s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
         flat_total += flat
         cand_total += cand

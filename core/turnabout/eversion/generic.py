@@ -74,7 +74,9 @@ def break_symmetry(
     if t.shape != (P.shape[0],) or t.min() < 0 or t.max() > 1:
         raise ValueError("times must be one number in [0, 1] per frame")
     f = np.asarray(faces, np.int64)
-    edges = np.unique(np.sort(np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]]), 1), axis=0)
+    edges = np.unique(
+        np.sort(np.concatenate([f[:, [0, 1]], f[:, [1, 2]], f[:, [2, 0]]]), 1), axis=0
+    )
     P0 = P[0] if rest is None else np.asarray(rest, np.float64)
     if P0.shape != P.shape[1:]:
         raise ValueError(f"rest must be ({P.shape[1]}, 3), got {P0.shape}")
