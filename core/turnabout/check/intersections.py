@@ -28,6 +28,8 @@ import numpy as np
 from .topology import MeshTopology
 
 _TINY = np.finfo(np.float64).tiny
+SWEEP_BITS = 20  # quantisation of x inside a grid cell for the sweep
+ONE_KEY_CELLS = 2.0 ** (62 - SWEEP_BITS)  # grids with fewer cells sort on one int64 key
 
 
 @dataclass
@@ -143,23 +145,34 @@ def grid_candidate_pairs(
     del cx, cy, cz, sx, sy, local
     lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
     hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
-    # sweep coordinate: low and high x mapped monotonically into [0, 1/2], so that
-    # "cell rank + x" orders entries by cell, then by x, and a binary search per entry
-    # finds the last partner in its cell whose low x is not beyond its high x
+    # sweep key: the cell, then the low x quantised by a monotone floor, in one int64, so
+    # one sort orders entries by cell and then (up to ties in the quantum) by x; a binary
+    # search per entry finds the last partner in its cell whose quantised low x is not
+    # beyond its own quantised high x (never too few: the floor keeps the order)
     x_lo = lo32[:, 0].astype(np.float64)
     x_hi = hi32[:, 0].astype(np.float64)
     x0 = float(x_lo.min())
-    scale = 0.5 / max(float(x_hi.max()) - x0, _TINY)
-    order = np.lexsort((x_lo.take(tri), key))
-    key, tri, mask = key[order], tri[order].astype(np.int32), mask[order]
-    n = key.size
-    new = np.ones(n, bool)
-    new[1:] = key[1:] != key[:-1]
-    rank = np.cumsum(new) - 1.0
-    del new, key, order
-    sweep = rank + (x_lo.take(tri) - x0) * scale
-    stop = np.searchsorted(sweep, rank + (x_hi.take(tri) - x0) * scale, side="right")
-    del sweep, rank
+    levels = float(2**SWEEP_BITS - 1)
+    scale = levels / max(float(x_hi.max()) - x0, _TINY)
+    q_lo = np.minimum(np.floor((x_lo - x0) * scale), levels).astype(np.int64)
+    q_hi = np.minimum(np.floor((x_hi - x0) * scale), levels).astype(np.int64)
+    if float(dims.prod()) < ONE_KEY_CELLS:
+        sweep = (key << SWEEP_BITS) | q_lo.take(tri)
+        order = np.argsort(sweep, kind="stable")
+        sweep, tri, mask = sweep[order], tri[order].astype(np.int32), mask[order]
+        query = ((sweep >> SWEEP_BITS) << SWEEP_BITS) | q_hi.take(tri)
+    else:  # a grid too large for one key: sort by cell, then by x, in two keys
+        order = np.lexsort((q_lo.take(tri), key))
+        key, tri, mask = key[order], tri[order].astype(np.int32), mask[order]
+        new = np.ones(key.size, bool)
+        new[1:] = key[1:] != key[:-1]
+        rank = np.cumsum(new) - 1
+        sweep = rank * (2**SWEEP_BITS) + q_lo.take(tri)
+        query = rank * (2**SWEEP_BITS) + q_hi.take(tri)
+    n = tri.size
+    del order, key
+    stop = np.searchsorted(sweep, query, side="right")
+    del sweep, query
     first, off = _expand_ranges(np.maximum(stop - np.arange(n) - 1, 0))
     second = first + 1 + off
     del off, stop
@@ -218,6 +231,8 @@ class _Frame:
         p0, p1, p2 = P[self.faces[:, 0]], P[self.faces[:, 1]], P[self.faces[:, 2]]
         self.p0 = p0
         self.normal = np.cross(p1 - p0, p2 - p0)
+        self.corners = np.stack([p0, p1, p2], axis=1)  # (M, 3, 3): one row gather per pair
+        self.plane = np.concatenate([p0, self.normal], axis=1)  # (M, 6): p0, normal
 
     def plane_value(self, t: np.ndarray, x: np.ndarray) -> np.ndarray:
         """normal_t . (x - p0_t): a deterministic function of (t, x)."""
@@ -300,8 +315,9 @@ def _plane_values(fr: _Frame, t: np.ndarray, corners: np.ndarray) -> np.ndarray:
 
     The same operations in the same order as _Frame.plane_value, so the same numbers.
     """
-    d = corners - fr.p0[t][:, None, :]
-    n = fr.normal[t][:, None, :]
+    pl = fr.plane[t]
+    d = corners - pl[:, None, :3]
+    n = pl[:, None, 3:]
     return n[..., 0] * d[..., 0] + n[..., 1] * d[..., 1] + n[..., 2] * d[..., 2]
 
 
@@ -354,13 +370,13 @@ def self_intersections(
     # the first one's plane). Tested one direction at a time, on the survivors of the
     # first; the plane values are kept for the event tests.
     ids_a = faces[a]
-    corners_a = P[ids_a]  # (K, 3, 3)
+    corners_a = fr.corners[a]  # (K, 3, 3)
     val_a = _plane_values(fr, b, corners_a)  # a's vertices against b's plane
     sa = _sign(val_a)
     keep = sa.min(axis=1) != sa.max(axis=1)
     a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
     ids_b = faces[b]
-    corners_b = P[ids_b]
+    corners_b = fr.corners[b]
     val_b = _plane_values(fr, a, corners_b)
     sb = _sign(val_b)
     keep = sb.min(axis=1) != sb.max(axis=1)
