@@ -262,16 +262,26 @@ def _inside_line_rows(ids: np.ndarray, corners: np.ndarray, p: np.ndarray, q: np
 
     ids : (K, 3) int vertex indices of the triangles; corners : (K, 3, 3) float64 their
     positions; p, q : (K, 3) float64 the lines' points in canonical order. Returns (K,) bool.
+    Each edge is taken in the triangle's own order: swapping the last two arguments of the
+    orientation determinant negates it exactly in floating point, so only an exact zero
+    needs the canonical order's tie-break (zero counts as positive in low-index-first order).
     """
+    a = q - p
     signs = []
     for k in range(3):
         kk = (k + 1) % 3
-        i, j = ids[:, k], ids[:, kk]
-        low_first = (i < j)[:, None]
-        u = np.where(low_first, corners[:, k], corners[:, kk])
-        v = np.where(low_first, corners[:, kk], corners[:, k])
-        s = _sign(_orient4(p, q, u, v))
-        signs.append(np.where(low_first[:, 0], s, -s))
+        b = corners[:, k] - p
+        c = corners[:, kk] - p
+        o = (
+            a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
+            + a[:, 1] * (b[:, 2] * c[:, 0] - b[:, 0] * c[:, 2])
+            + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0])
+        )
+        s = np.sign(o).astype(np.int8)
+        zero = s == 0
+        if zero.any():
+            s[zero] = np.where(ids[zero, k] < ids[zero, kk], 1, -1)
+        signs.append(s)
     return (signs[0] == signs[1]) & (signs[1] == signs[2])
 
 
