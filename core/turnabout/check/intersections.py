@@ -500,16 +500,16 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     order = np.argsort(owner, kind="stable")
     owner, other = owner[order], other[order]
     starts = np.searchsorted(owner, np.arange(m + 1))
-    cand_seg, cand_tri = [], []
-    for side in range(2):
-        t = seg_faces[:, side]
-        cnt = starts[t + 1] - starts[t]
-        seg_id, local = _expand_ranges(cnt)
-        cand_seg.append(seg_id)
-        cand_tri.append(other[starts[t[seg_id]] + local])
-    seg_id = np.concatenate(cand_seg)
-    c = np.concatenate(cand_tri)
-    pair = np.unique(seg_id * m + c)
+    # a third sheet's triangle c through the segment's point meets both a and b there, so
+    # c is a partner of a that is also a partner of b
+    partner_keys = np.sort(owner * m + other)
+    fa = seg_faces[:, 0]
+    cnt = starts[fa + 1] - starts[fa]
+    seg_id, local = _expand_ranges(cnt)
+    c = other[starts[fa[seg_id]] + local]
+    k = seg_faces[seg_id, 1] * m + c
+    pos = np.minimum(np.searchsorted(partner_keys, k), partner_keys.size - 1)
+    pair = np.sort(seg_id[partner_keys[pos] == k] * m + c[partner_keys[pos] == k])
     seg_id, c = pair // m, pair % m
     fa, fb = seg_faces[seg_id, 0], seg_faces[seg_id, 1]
     # the third sheet must not touch the first two (a local fold is not a triple point)
