@@ -53,7 +53,10 @@ DEGREE = 9  # degree of D(s)
 CHUNK = 20000  # quadruples solved at once (memory: about 10 kB each)
 ROOT_GRID = 256  # samples of D(s) on [0, 1] used to bracket its roots
 SAME_MOMENT = 1e-7  # detections closer than this in s (and in space) are one point
-SAME_PLACE = 1e-6  # ... in space, as a fraction of the mean edge length
+SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
+EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
+# edge lengths, within a frame of its moment) is that quadruple point seen at the frame
+_TINY = 1e-300
 INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
 # is found in both triangles and merged)
 
@@ -451,7 +454,7 @@ def quadruple_points(
     parts = []
     flat_total = 0
     cand_total = 0
-    crowded_frames = 0
+    crowded_points: list[tuple[int, np.ndarray, float]] = []
     total = n_int + (0 if frame_intersections is not None else n_frames)
     done = 0
     if frame_intersections is None:
@@ -467,7 +470,10 @@ def quadruple_points(
         if res is not None and res.triple_detections.size:
             # detection counts that only k >= 4 sheets through one point explain (several
             # distinct triple points merged in a crumpled region give other multiples of 3)
-            crowded_frames += int(np.any(sheets_meeting(res.triple_detections) >= 4))
+            where = np.flatnonzero(sheets_meeting(res.triple_detections) >= 4)
+            f0 = topo.faces[res.triple_faces[where, 0]]
+            size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
+            crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
     for k in range(n_int):
         seeds = np.concatenate(
             [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
@@ -506,6 +512,19 @@ def quadruple_points(
             "their moment with another one elsewhere (symmetric copies): the motion is not in "
             "general position"
         )
+    # four triple points within the merge radius at a frame are expected when the frame lies
+    # within a small fraction of a frame of a quadruple point (the four shrink to it): only
+    # those no detected quadruple point explains say the motion is not generic
+    when = it + sk
+    unexplained = [
+        k
+        for k, pos, size in crowded_points
+        if not np.any(
+            (np.abs(when - k) <= 1.0)
+            & (np.linalg.norm(x[keep] - pos, axis=1) <= EXPLAINED * max(size, _TINY))
+        )
+    ]
+    crowded_frames = len(set(unexplained))
     if crowded_frames:
         notes.append(
             f"{crowded_frames} frame(s) with points where four or more sheets meet "
