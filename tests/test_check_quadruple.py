@@ -63,6 +63,17 @@ def test_four_spheres_meeting_once_have_one_quadruple_point_at_the_circumcentre(
     assert sorted(q.faces[0] // (F.shape[0] // 4)) == [0, 1, 2, 3]
 
 
+@pytest.mark.parametrize("frames", [2, 4, 6])
+def test_few_frames_still_find_the_one_quadruple_point(frames):
+    # the spheres move several local edge lengths per frame here: the interval is seeded
+    # from intermediate positions too, so the moment is found wherever it falls
+    P, F = four_spheres(frames=frames)
+    q = quadruple_points(P, F)
+    assert q.count == 1 and np.linalg.norm(q.position[0]) < 0.02
+    # the same moment of the motion, whatever the frame count: R = 1 a little before t = 1/2
+    assert 0.47 < q.time[0] / (frames - 1) < 0.5
+
+
 def test_four_spheres_that_miss_have_no_quadruple_point():
     P, F = four_spheres(shift=0.6)
     q = quadruple_points(P, F)

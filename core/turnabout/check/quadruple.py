@@ -21,8 +21,9 @@ edge during the interval), and a fourth triangle is any that may meet all three 
 moving: no shared vertex, overlapping boxes of the six end positions (the convex hull of
 which holds the moving triangle), and no separation along either mid-motion normal. This
 assumes each triple point crosses at most about one triangle edge per frame interval,
-which holds when frames are fine enough that a vertex moves less than about an edge
-length per frame (the default eversion's frame count is chosen so).
+which holds when a vertex moves less than about an edge length between two seeding
+positions: an interval where some vertex moves further is also seeded from intermediate
+positions, one per shortest-edge length moved (up to MAX_PIECES).
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -57,6 +58,8 @@ SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
 EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
 # edge lengths, within a frame of its moment) is that quadruple point seen at the frame
 _TINY = 1e-300
+MAX_STEP = 1.0  # local edge lengths a vertex may move between two seeding positions
+MAX_PIECES = 16
 INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
 # is found in both triangles and merged)
 
@@ -474,10 +477,23 @@ def quadruple_points(
             f0 = topo.faces[res.triple_faces[where, 0]]
             size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
             crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
+    # local edge length at each vertex (shortest edge there, first frame) for the step test
+    ev = topo.edges
+    elen = np.linalg.norm(P[0][ev[:, 1]] - P[0][ev[:, 0]], axis=1)
+    local = np.full(P.shape[1], np.inf)
+    np.minimum.at(local, ev[:, 0], elen)
+    np.minimum.at(local, ev[:, 1], elen)
+    local = np.where(np.isfinite(local), local, 1.0)
     for k in range(n_int):
-        seeds = np.concatenate(
-            [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
-        )
+        parts_seeds = [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
+        # a fast interval (some vertex moving more than a local edge length) is also seeded
+        # from the triple points of intermediate positions, one per local edge length moved
+        step = float(np.max(np.linalg.norm(P[k + 1] - P[k], axis=1) / local))
+        pieces = int(min(np.ceil(step / MAX_STEP), MAX_PIECES))
+        for j in range(1, pieces):
+            Pj = P[k] + (P[k + 1] - P[k]) * (j / pieces)
+            parts_seeds.append(self_intersections(Pj, topo).triple_faces)
+        seeds = np.concatenate(parts_seeds)
         s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
         flat_total += flat
         cand_total += cand
