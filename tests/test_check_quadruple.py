@@ -64,11 +64,11 @@ def test_four_spheres_meeting_once_have_one_quadruple_point_at_the_circumcentre(
 
 
 @pytest.mark.parametrize("frames", [2, 4, 6])
-def test_few_frames_still_find_the_one_quadruple_point(frames):
-    # the spheres move several local edge lengths per frame here: the interval is seeded
-    # from intermediate positions too, so the moment is found wherever it falls
+def test_few_frames_find_the_one_quadruple_point_with_substeps(frames):
+    # near the moment the triple points move much faster than the vertices; seeding each
+    # interval from intermediate positions too finds the moment wherever it falls
     P, F = four_spheres(frames=frames)
-    q = quadruple_points(P, F)
+    q = quadruple_points(P, F, substeps=8)
     assert q.count == 1 and np.linalg.norm(q.position[0]) < 0.02
     # the same moment of the motion, whatever the frame count: R = 1 a little before t = 1/2
     assert 0.47 < q.time[0] / (frames - 1) < 0.5
@@ -160,6 +160,8 @@ def test_bad_input_is_refused(eps):
         break_symmetry(P, F, eps=eps)
     with pytest.raises(ValueError, match="positions"):
         quadruple_points(P[:1], F)
+    with pytest.raises(ValueError, match="substeps"):
+        quadruple_points(P, F, substeps=0)
 
 
 # --------------------------------------------------------------------------- the eversion

@@ -22,8 +22,9 @@ moving: no shared vertex, overlapping boxes of the six end positions (the convex
 which holds the moving triangle), and no separation along either mid-motion normal. This
 assumes each triple point crosses at most about one triangle edge per frame interval,
 which holds when a vertex moves less than about an edge length between two seeding
-positions: an interval where some vertex moves further is also seeded from intermediate
-positions, one per shortest-edge length moved (up to MAX_PIECES).
+positions: an interval where some vertex moves further than the mean length of its edges
+(the checker's step metric) is also seeded from intermediate positions, one per such
+length moved (up to MAX_PIECES).
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -58,7 +59,7 @@ SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
 EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
 # edge lengths, within a frame of its moment) is that quadruple point seen at the frame
 _TINY = 1e-300
-MAX_STEP = 1.0  # local edge lengths a vertex may move between two seeding positions
+MAX_STEP = 1.0  # local edge lengths (mean at the vertex) moved between seeding positions
 MAX_PIECES = 16
 INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
 # is found in both triangles and merged)
@@ -435,17 +436,24 @@ def quadruple_points(
     faces,
     progress: ProgressFn | None = None,
     frame_intersections: dict | None = None,
+    substeps: int = 1,
 ) -> QuadruplePoints:
     """Quadruple points of an animation of a fixed triangle mesh.
 
     positions : (F, V, 3) float32/float64 (F >= 2); faces : (M, 3) int;
     frame_intersections : optional {frame: IntersectionResult} already computed for these
     positions (a frame missing from it has no triple point); computed here when None.
-    progress(done, total) is called once per frame computed and once per interval.
-    Moments are in frames (k + s).
+    substeps : seed every interval from at least this many equal steps (1 to MAX_PIECES):
+    triple points can move much faster than the vertices near tangencies, so a coarse
+    animation may need more. progress(done, total) is called once per frame computed and
+    once per interval. Moments are in frames (k + s).
     """
     from .animation import sheets_meeting
 
+    if isinstance(substeps, bool) or not isinstance(substeps, int | np.integer):
+        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
+    if not 1 <= substeps <= MAX_PIECES:
+        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
     progress = no_progress if progress is None else progress
     P = np.asarray(positions, np.float64)
     if P.ndim != 3 or P.shape[0] < 2 or P.shape[2] != 3:
@@ -477,19 +485,24 @@ def quadruple_points(
             f0 = topo.faces[res.triple_faces[where, 0]]
             size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
             crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
-    # local edge length at each vertex (shortest edge there, first frame) for the step test
+    # local edge length at each vertex: the mean length of its edges, as the checker's
+    # step metric measures it (averaged over the interval's two ends)
     ev = topo.edges
-    elen = np.linalg.norm(P[0][ev[:, 1]] - P[0][ev[:, 0]], axis=1)
-    local = np.full(P.shape[1], np.inf)
-    np.minimum.at(local, ev[:, 0], elen)
-    np.minimum.at(local, ev[:, 1], elen)
-    local = np.where(np.isfinite(local), local, 1.0)
+    degree = np.maximum(np.bincount(ev.ravel(), minlength=P.shape[1]), 1)
+
+    def local_length(X: np.ndarray) -> np.ndarray:
+        el = np.linalg.norm(X[ev[:, 1]] - X[ev[:, 0]], axis=1)
+        return np.bincount(ev.ravel(), np.repeat(el, 2), minlength=X.shape[0]) / degree
+
+    len_next = local_length(P[0])
     for k in range(n_int):
         parts_seeds = [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
-        # a fast interval (some vertex moving more than a local edge length) is also seeded
-        # from the triple points of intermediate positions, one per local edge length moved
-        step = float(np.max(np.linalg.norm(P[k + 1] - P[k], axis=1) / local))
-        pieces = int(min(np.ceil(step / MAX_STEP), MAX_PIECES))
+        # a fast interval (some vertex moving more than its local edge length) is also
+        # seeded from the triple points of intermediate positions, one per length moved
+        len_here, len_next = len_next, local_length(P[k + 1])
+        mean_len = np.maximum(0.5 * (len_here + len_next), _TINY)
+        step = float(np.max(np.linalg.norm(P[k + 1] - P[k], axis=1) / mean_len))
+        pieces = int(min(max(np.ceil(step / MAX_STEP), substeps), MAX_PIECES))
         for j in range(1, pieces):
             Pj = P[k] + (P[k + 1] - P[k]) * (j / pieces)
             parts_seeds.append(self_intersections(Pj, topo).triple_faces)
