@@ -17,14 +17,14 @@ it lies inside all four moving triangles.
 Candidates grow from the triple points at the two ends of the interval (the moving triple
 point of three sheets is what meets the fourth): each triple of triangles is widened by
 letting one triangle be any that shares a vertex with it (the triple point may cross an
-edge during the interval), and a fourth triangle is any that may meet all three while
-moving: no shared vertex, overlapping boxes of the six end positions (the convex hull of
-which holds the moving triangle), and no separation along either mid-motion normal. This
-assumes each triple point crosses at most about one triangle edge per frame interval,
-which holds when a vertex moves less than about an edge length between two seeding
-positions: an interval where some vertex moves further than the mean length of its edges
-(the checker's step metric) is also seeded from intermediate positions, one per such
-length moved (up to MAX_PIECES).
+edge during the interval), and two widened triples that share two triangles make a
+candidate when their other two triangles may meet while moving: no shared vertex,
+overlapping boxes of the six end positions (the convex hull of which holds the moving
+triangle), and no separation along either mid-motion normal. Near the moment all four
+triples are triple points, so at least two are seen. This assumes a triple point crosses at
+most about one triangle edge between two seeding positions: an interval where some vertex
+moves further than the mean length of its edges (the checker's step metric) is also seeded
+from intermediate positions, one per such length moved, and ``substeps`` asks for more.
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -36,8 +36,9 @@ General position: Max and Banchoff ("Every sphere eversion has a quadruple point
 Contributions to Analysis and Geometry, Johns Hopkins University Press, 1981) prove that a
 sphere eversion in general position has an odd number of quadruple points. A symmetric
 motion is not in general position: several quadruple points at one moment (copies under
-the symmetry), more than four sheets through one point, or four planes that keep a common
-point for a whole interval. These are reported in ``notes`` and ``general_position`` is
+the symmetry), more than four sheets through one point, four planes that keep a common
+point for a whole interval, or four sheets through one point at a frame with no quadruple
+point detected next to it. These are reported in ``notes`` and ``general_position`` is
 False, so a count is never read as a parity it cannot carry.
 """
 
