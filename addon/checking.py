@@ -26,6 +26,8 @@ from bpy.props import BoolProperty, IntProperty, StringProperty
 
 MARKER_FAIL = "turnabout fail"
 MARKER_WORST = "turnabout worst"
+MARKER_QUADRUPLE = "turnabout four sheets"
+_OUR_MARKERS = (MARKER_FAIL, MARKER_WORST, MARKER_QUADRUPLE)
 METRIC_PREFIX = "turnabout_"
 HEAT_ATTRIBUTE = "turnabout_heat"
 CURVE_SUFFIX = " double curves"
@@ -188,7 +190,9 @@ def bake_frame_times(ob, start: int, end: int):
     return np.where((t >= 0) & (t <= 1), t, np.nan)
 
 
-def _run_checker(positions, faces, intersections, state, workers=1, times=None):
+def _run_checker(
+    positions, faces, intersections, state, workers=1, times=None, quadruple=False
+):
     """Thread body: run the core checker, recording progress and the result in ``state``."""
     from turnabout.check import Thresholds, check_animation
     from turnabout.progress import Cancelled
@@ -207,6 +211,7 @@ def _run_checker(positions, faces, intersections, state, workers=1, times=None):
             progress=progress,
             intersections=intersections,
             workers=workers,
+            quadruple=quadruple and intersections,
         )
     except BaseException as exc:  # handed back to the generator
         state["error"] = exc
@@ -228,6 +233,7 @@ def check_steps(
     intersections: bool = True,
     stem: str | None = None,
     workers: int = 1,
+    quadruple: bool = False,
 ):
     """The whole check as a generator of (stage, done, total); returns a CheckOutcome.
 
@@ -251,7 +257,7 @@ def check_steps(
     worker = threading.Thread(
         target=_run_checker,
         args=(positions, faces, intersections, state, workers if bpy.app.background else 1,
-              bake_frame_times(ob, start, end)),  # fmt: skip
+              bake_frame_times(ob, start, end), quadruple),  # fmt: skip
         daemon=True,
     )
     worker.start()
@@ -347,7 +353,7 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
     start = int(frames[0])
 
     # markers: replace ours, keep everyone else's
-    for m in [m for m in scene.timeline_markers if m.name in (MARKER_FAIL, MARKER_WORST)]:
+    for m in [m for m in scene.timeline_markers if m.name in _OUR_MARKERS]:
         scene.timeline_markers.remove(m)
     failing = [int(i) for i in report.failing_frames()]
     for i in failing:
@@ -355,6 +361,9 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
     worst = report.worst_frame
     if worst is not None:
         scene.timeline_markers.new(MARKER_WORST, frame=start + int(worst))
+    quad = getattr(report, "quadruple_points", None)
+    for when in [] if quad is None else quad.time:  # the frame nearest each moment
+        scene.timeline_markers.new(MARKER_QUADRUPLE, frame=start + int(np.floor(when + 0.5)))
 
     # per-frame metrics as animated custom properties
     table = _numeric_columns(report.metrics_table(), len(frames))
@@ -464,7 +473,8 @@ class TURNABOUT_OT_check(bpy.types.Operator):
         else:
             start, end = resolve_range(context.scene, s)
         folder = report_folder(self.report_dir or s.report_dir) if self.write_reports else None
-        return ob, check_steps(context, ob, start, end, folder, s.check_intersections)
+        return ob, check_steps(context, ob, start, end, folder, s.check_intersections,
+                               quadruple=s.check_quadruple_points)  # fmt: skip
 
     def _finish(self, context, ob, outcome):
         s = context.scene.turnabout
@@ -555,7 +565,7 @@ class TURNABOUT_OT_clear_check(bpy.types.Operator):
 
     def execute(self, context):
         scene = context.scene
-        for m in [m for m in scene.timeline_markers if m.name in (MARKER_FAIL, MARKER_WORST)]:
+        for m in [m for m in scene.timeline_markers if m.name in _OUR_MARKERS]:
             scene.timeline_markers.remove(m)
         scene.turnabout.results.clear()
         scene.turnabout.last_verdict = ""

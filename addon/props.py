@@ -228,6 +228,12 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         description="Find self-intersections (double curves and triple points); slower",
         default=True,
     )
+    check_quadruple_points: BoolProperty(
+        name="Four-sheet moments",
+        description="Also find the quadruple points between frames (needs Double curves); "
+        "marks each on the timeline",
+        default=False,
+    )
     check_curve_object: BoolProperty(
         name="Double-curve object",
         description="Add the current frame's double curves as a curve object",

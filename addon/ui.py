@@ -93,6 +93,7 @@ class TURNABOUT_PT_check(_SidebarPanel, bpy.types.Panel):
         row.prop(s, "check_start")
         row.prop(s, "check_end")
         col.prop(s, "check_intersections")
+        col.prop(s, "check_quadruple_points")
         col.prop(s, "check_curve_object")
         col.prop(s, "report_dir")
         row = col.row(align=True)

@@ -7,8 +7,13 @@
 2. Self-intersection analysis (double curves and triple points) of one 65,536-triangle frame
    of Boy's surface, as a ratio to Blender's own BVHTree.overlap on the same mesh (needs the
    bpy module for mathutils; skipped otherwise). Goal: 3x or less.
+3. The same on mid-motion frames 150, 200, 240, 300 and 330 of the default eversion (480
+   frames, 94,080 triangles; hundreds of triple points and tens of thousands of crossing
+   triangle pairs each). Goals: at most 3x BVHTree.overlap alone and at most 1.5x build +
+   overlap. Each frame is timed ``--repeat`` times, ours and Blender's interleaved, and the
+   ratios of each round are printed with their spread (the machine may be shared).
 
-Run: python benchmarks/bench_check.py [--frames 240] [--repeat 3]
+Run: python benchmarks/bench_check.py [--frames 240] [--repeat 3] [--only eversion]
 """
 
 from __future__ import annotations
@@ -118,13 +123,75 @@ def bench_intersections(repeat: int) -> None:
     )
 
 
+EVERSION_FRAMES = (150, 200, 240, 300, 330)
+
+
+def bench_eversion_frames(repeat: int) -> None:
+    from turnabout.eversion import Controls, default_mesh, evaluate
+
+    if "bpy" not in sys.modules:
+        os.environ.setdefault("BLENDER_USER_RESOURCES", tempfile.mkdtemp(prefix="bench-"))
+    try:
+        import bpy  # noqa: F401
+        from mathutils.bvhtree import BVHTree
+    except ImportError:
+        print("eversion frames: mathutils not importable: no Blender baseline")
+        return
+    c = Controls()
+    mesh = default_mesh(c)
+    P = evaluate(c, [f / 479 for f in EVERSION_FRAMES], mesh)
+    faces = mesh.triangles()
+    topo = MeshTopology(faces, P.shape[1])
+    self_intersections(P[0], topo)  # warm the topology's caches
+    print(f"self-intersection: default eversion frames, {faces.shape[0]} triangles "
+          f"(best of {repeat}; ratios per round: min-max)")  # fmt: skip
+    print(
+        "  frame  candidates  segments  curves  triples | ours ms  build ms  overlap ms | "
+        "x overlap       x build+overlap"
+    )
+    all_r1, all_r2 = [], []
+    for k, frame in enumerate(EVERSION_FRAMES):
+        p = P[k]
+        verts, tris = p.tolist(), faces.tolist()
+        r1, r2, t_o, t_b, t_v = [], [], [], [], []
+        for _ in range(repeat):
+            t = time.perf_counter()
+            res = self_intersections(p, topo)
+            ours = time.perf_counter() - t
+            t = time.perf_counter()
+            tree = BVHTree.FromPolygons(verts, tris, all_triangles=True)
+            build = time.perf_counter() - t
+            t = time.perf_counter()
+            tree.overlap(tree)
+            overlap = time.perf_counter() - t
+            r1.append(ours / overlap)
+            r2.append(ours / (build + overlap))
+            t_o.append(ours)
+            t_b.append(build)
+            t_v.append(overlap)
+        all_r1 += r1
+        all_r2 += r2
+        print(f"  {frame:5d}  {res.candidate_pairs:10d}  {res.segments.shape[0]:8d}  "
+              f"{res.double_curve_count:6d}  {res.triple_point_count:7d} | "
+              f"{1000 * min(t_o):7.0f}  {1000 * min(t_b):8.0f}  {1000 * min(t_v):10.0f} | "
+              f"{min(r1):4.2f}-{max(r1):4.2f}x  {min(r2):4.2f}-{max(r2):4.2f}x")  # fmt: skip
+    print(f"  all frames and rounds: {min(all_r1):.2f}-{max(all_r1):.2f}x overlap "
+          f"(goal <= 3x), {min(all_r2):.2f}-{max(all_r2):.2f}x build + overlap (goal <= 1.5x); "
+          f"median {np.median(all_r1):.2f}x and {np.median(all_r2):.2f}x")  # fmt: skip
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--frames", type=int, default=240)
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--only", choices=("local", "boy", "eversion"), default=None)
     args = ap.parse_args()
-    bench_local(args.frames, args.repeat)
-    bench_intersections(args.repeat)
+    if args.only in (None, "local"):
+        bench_local(args.frames, args.repeat)
+    if args.only in (None, "boy"):
+        bench_intersections(args.repeat)
+    if args.only in (None, "eversion"):
+        bench_eversion_frames(args.repeat)
 
 
 if __name__ == "__main__":

@@ -128,7 +128,12 @@ def test_three_spheres_have_two_triple_points():
     assert res.double_curve_count == 3
 
 
-def test_grid_broad_phase_finds_every_overlapping_box_pair_once():
+@pytest.mark.parametrize("one_key", [True, False])
+def test_grid_broad_phase_finds_every_overlapping_box_pair_once(one_key, monkeypatch):
+    import turnabout.check.intersections as inter
+
+    if not one_key:  # the two-key sort used for grids too large for one int64 key
+        monkeypatch.setattr(inter, "ONE_KEY_CELLS", 0.0)
     rng = np.random.default_rng(7)
     lo = rng.random((300, 3))
     hi = lo + rng.random((300, 3)) * 0.1
@@ -210,3 +215,97 @@ def test_four_symmetric_spheres_meet_in_fourfold_points():
     assert any("more than three sheets meet (up to 4)" in n for n in fr.notes)
     assert not any("sheets meet" in r for r in fr.reasons)
     assert not any("Banchoff" in r for r in fr.reasons)
+
+
+# --------------------------------------------------------------------------- brute force
+
+
+def _brute_force_segments(P: np.ndarray, faces: np.ndarray) -> dict:
+    """Every pair of triangles sharing no vertex, intersected exactly the textbook way.
+
+    For triangles T1, T2 in general position the intersection is the overlap of the two
+    segments T1 n plane(T2) and T2 n plane(T1) on the line where the planes meet (common
+    practice: the interval-overlap test of triangle-triangle intersection). Returns
+    {(i, j): (2, 3) segment} for i < j, over all pairs (no broad phase).
+    """
+    m = faces.shape[0]
+    i, j = np.triu_indices(m, 1)
+    share = np.zeros(i.size, bool)
+    for u in range(3):
+        for v in range(3):
+            share |= faces[i, u] == faces[j, v]
+    i, j = i[~share], j[~share]
+    T = P[faces]
+    n = np.cross(T[:, 1] - T[:, 0], T[:, 2] - T[:, 0])
+    out: dict = {}
+
+    def cut(A, nB, pB):
+        """Segment where triangles A (K, 3, 3) cross the planes (nB, pB): (K, 2, 3), ok."""
+        d = np.einsum("kvi,ki->kv", A - pB[:, None], nB)
+        pts = []
+        for e in range(3):
+            d0, d1 = d[:, e], d[:, (e + 1) % 3]
+            t = d0 / np.where(d0 != d1, d0 - d1, 1.0)
+            hit = (d0 > 0) != (d1 > 0)
+            pts.append((hit, A[:, e] + (A[:, (e + 1) % 3] - A[:, e]) * t[:, None]))
+        hits = np.stack([h for h, _ in pts], 1)
+        xyz = np.stack([p for _, p in pts], 1)
+        ok = hits.sum(1) == 2
+        col = np.argsort(~hits, axis=1, kind="stable")[:, :2]
+        return xyz[np.arange(len(A))[:, None], col], ok
+
+    for start in range(0, i.size, 200_000):
+        a, b = i[start : start + 200_000], j[start : start + 200_000]
+        sa, oka = cut(T[a], n[b], T[b, 0])
+        sb, okb = cut(T[b], n[a], T[a, 0])
+        direction = np.cross(n[a], n[b])
+        ta = np.einsum("kpi,ki->kp", sa, direction)
+        tb = np.einsum("kpi,ki->kp", sb, direction)
+        lo = np.maximum(ta.min(1), tb.min(1))
+        hi = np.minimum(ta.max(1), tb.max(1))
+        good = np.flatnonzero(oka & okb & (lo < hi))
+        for k in good.tolist():
+            pts = np.concatenate([sa[k], sb[k]])
+            t = np.concatenate([ta[k], tb[k]])
+            ends = [pts[np.argmin(np.abs(t - lo[k]))], pts[np.argmin(np.abs(t - hi[k]))]]
+            out[(int(a[k]), int(b[k]))] = np.array(ends)
+    return out
+
+
+def _assert_same_as_brute_force(P: np.ndarray, faces: np.ndarray) -> int:
+    res = self_intersections(P, MeshTopology(faces, len(P)))
+    brute = _brute_force_segments(P, faces)
+    ours = {tuple(map(int, f)): s for f, s in zip(res.segment_faces, res.segments, strict=True)}
+    assert set(ours) == set(brute)  # same pairs
+    scale = np.ptp(P, axis=0).max()
+    for key, seg in ours.items():  # same segments, either way round
+        other = brute[key]
+        d = min(np.abs(seg - other).max(), np.abs(seg - other[::-1]).max())
+        assert d < 1e-9 * scale, (key, seg, other)
+    return len(ours)
+
+
+def test_fast_path_matches_brute_force_on_random_triangles():
+    rng = np.random.default_rng(11)
+    centres = rng.random((300, 1, 3))
+    P = (centres + 0.15 * rng.standard_normal((300, 3, 3))).reshape(-1, 3)
+    faces = np.arange(900).reshape(300, 3)
+    assert _assert_same_as_brute_force(P, faces) > 100
+
+
+def test_fast_path_matches_brute_force_on_an_eversion_frame_region():
+    # mid-motion frame of a coarse corrugated eversion, cropped to the triangles near its
+    # axis where many sheets cross
+    from turnabout.eversion import Controls, default_mesh, evaluate
+
+    c = Controls()
+    mesh = default_mesh(c, n_lon=96, n_lat=40, spacing="even")
+    P = evaluate(c, [0.5], mesh)[0]
+    faces = mesh.triangles()
+    centre = P[faces].mean(axis=1)
+    near = np.linalg.norm(centre - np.array([0.0, 0.0, 0.2]), axis=1) < 0.35
+    crop = faces[near]
+    used, inverse = np.unique(crop, return_inverse=True)
+    crop_faces = inverse.reshape(-1, 3)
+    assert 1000 < crop_faces.shape[0] < 4000
+    assert _assert_same_as_brute_force(P[used], crop_faces) > 100

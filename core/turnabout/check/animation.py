@@ -324,6 +324,7 @@ def check_animation(
     workers: int = 1,
     level_counts=None,
     level_up=None,
+    quadruple: bool = False,
 ) -> AnimationReport:
     """Judge every frame of an animation of a fixed mesh.
 
@@ -333,7 +334,9 @@ def check_animation(
     called once per frame and may raise turnabout.progress.Cancelled; intersections=False
     skips double curves and triple points (the slow part); use_mathutils takes the
     intersection broad phase from Blender's BVH when importable; workers > 1 judges chunks
-    of frames in that many forked processes (POSIX only; otherwise frames run in-process).
+    of frames in that many forked processes (POSIX only; otherwise frames run in-process);
+    quadruple=True (with intersections) also finds the quadruple points between frames
+    (turnabout.check.quadruple; report.quadruple_points).
     level_counts(positions (F, V, 3), faces (M, 3) int32) -> (F, 4) int: per frame the
     level points' signed count and the numbers of domes, bowls and saddles (see
     turnabout.views.levels), called once on closed orientable manifolds (faces oriented);
@@ -395,6 +398,11 @@ def check_animation(
     if treport.is_sphere and n_frames >= 2:
         ev = eversion_check(P[0], P[-1], topo.edges, frames[0].signed_volume,
                             frames[-1].signed_volume, th.sphere_tolerance)  # fmt: skip
+    quad = None
+    if quadruple and intersections and n_frames >= 2:
+        from .quadruple import quadruple_points
+
+        quad = quadruple_points(P, topo.faces, frame_intersections=inter_results)
     rank = max((VERDICTS.index(f.verdict) for f in frames), default=0)
     if anim_reasons and rank == 0:
         rank = 1
@@ -410,6 +418,7 @@ def check_animation(
         eversion=ev,
         reasons=anim_reasons,
         intersections_checked=intersections,
+        quadruple_points=quad,
         _positions=P,
         _topo=topo,
         _intersections=inter_results,

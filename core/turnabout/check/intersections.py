@@ -28,6 +28,8 @@ import numpy as np
 from .topology import MeshTopology
 
 _TINY = np.finfo(np.float64).tiny
+SWEEP_BITS = 20  # quantisation of x inside a grid cell for the sweep
+ONE_KEY_CELLS = 2.0 ** (62 - SWEEP_BITS)  # grids with fewer cells sort on one int64 key
 
 
 @dataclass
@@ -108,12 +110,18 @@ def grid_candidate_pairs(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float box corners.
 
-    A uniform grid with cells ``cell_scale`` times the mean box extent. A pair is kept only
-    in the first cell (lowest index on every axis) that both boxes cover, so each pair is
-    reported once. Returns two (K,) int64 arrays.
+    A uniform grid with cells ``cell_scale`` times the mean box extent. Inside each cell the
+    boxes are sorted by their low x and only those whose x ranges overlap are paired (a sweep
+    by binary search), so a crowded cell costs its overlapping pairs, not all its pairs. A
+    pair is kept only in the first cell (lowest index on every axis) that both boxes cover,
+    so each pair is reported once. Boxes are compared in float32, widened by one float32
+    step so rounding cannot lose a touching pair. Returns two (K,) int64 arrays.
     """
     lo = np.asarray(lo, np.float64)
     hi = np.asarray(hi, np.float64)
+    m = lo.shape[0]
+    if m < 2:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
     ext = hi - lo
     h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
     origin = lo.min(axis=0)
@@ -128,35 +136,56 @@ def grid_candidate_pairs(
     cy = imin[tri, 1] + (local // sx) % sy
     cz = imin[tri, 2] + local // (sx * sy)
     key = (cx * dims[1] + cy) * dims[2] + cz
-    order = np.argsort(key, kind="stable")
-    key, tri = key[order], tri[order]
-    n = key.size
-    new = np.ones(n, bool)
-    new[1:] = key[1:] != key[:-1]
-    gstart = np.flatnonzero(new)
-    gsize = np.diff(np.append(gstart, n))
-    partners = np.repeat(gstart + gsize, gsize) - np.arange(n) - 1
-    first, off = _expand_ranges(partners)
-    second = first + 1 + off
-    cell = key.take(first)
-    a, b = tri.take(first).astype(np.int32), tri.take(second).astype(np.int32)
-    del first, second, off
-    # box overlap, one axis at a time, compacting as we go (contiguous float32 columns;
-    # the boxes were widened by one float32 step so rounding cannot lose a touching pair)
+    # a pair belongs to the first cell both boxes cover (the max of their low cells on every
+    # axis): in that cell, on each axis, at least one of the two starts there. Bit k of an
+    # entry's mask says its box starts in the entry's cell on axis k.
+    mask = (cx == imin[tri, 0]).astype(np.uint8)
+    mask |= (cy == imin[tri, 1]).astype(np.uint8) << 1
+    mask |= (cz == imin[tri, 2]).astype(np.uint8) << 2
+    del cx, cy, cz, sx, sy, local
     lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
     hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
-    for ax in range(3):
+    # sweep key: the cell, then the low x quantised by a monotone floor, in one int64, so
+    # one sort orders entries by cell and then (up to ties in the quantum) by x; a binary
+    # search per entry finds the last partner in its cell whose quantised low x is not
+    # beyond its own quantised high x (never too few: the floor keeps the order)
+    x_lo = lo32[:, 0].astype(np.float64)
+    x_hi = hi32[:, 0].astype(np.float64)
+    x0 = float(x_lo.min())
+    levels = float(2**SWEEP_BITS - 1)
+    scale = levels / max(float(x_hi.max()) - x0, _TINY)
+    q_lo = np.minimum(np.floor((x_lo - x0) * scale), levels).astype(np.int64)
+    q_hi = np.minimum(np.floor((x_hi - x0) * scale), levels).astype(np.int64)
+    if float(dims.prod()) < ONE_KEY_CELLS:
+        sweep = (key << SWEEP_BITS) | q_lo.take(tri)
+        order = np.argsort(sweep, kind="stable")
+        sweep, tri, mask = sweep[order], tri[order].astype(np.int32), mask[order]
+        query = ((sweep >> SWEEP_BITS) << SWEEP_BITS) | q_hi.take(tri)
+    else:  # a grid too large for one key: sort by cell, then by x, in two keys
+        order = np.lexsort((q_lo.take(tri), key))
+        key, tri, mask = key[order], tri[order].astype(np.int32), mask[order]
+        new = np.ones(key.size, bool)
+        new[1:] = key[1:] != key[:-1]
+        rank = np.cumsum(new) - 1
+        sweep = rank * (2**SWEEP_BITS) + q_lo.take(tri)
+        query = rank * (2**SWEEP_BITS) + q_hi.take(tri)
+    n = tri.size
+    del order, key
+    stop = np.searchsorted(sweep, query, side="right")
+    del sweep, query
+    first, off = _expand_ranges(np.maximum(stop - np.arange(n) - 1, 0))
+    second = first + 1 + off
+    del off, stop
+    home = (mask.take(first) | mask.take(second)) == 7
+    a, b = tri.take(first[home]), tri.take(second[home])
+    del first, second, home
+    for ax in (1, 2, 0):  # x last: the sweep only missed pairs tied after rounding
         lo_ax = np.ascontiguousarray(lo32[:, ax])
         hi_ax = np.ascontiguousarray(hi32[:, ax])
         ok = lo_ax.take(a) <= hi_ax.take(b)
         ok &= lo_ax.take(b) <= hi_ax.take(a)
-        a, b, cell = a[ok], b[ok], cell[ok]
-    # de-duplicate: keep a pair in the first cell both boxes cover (max of imin per axis)
-    ix, iy, iz = (np.ascontiguousarray(imin[:, j]) for j in range(3))
-    home = np.maximum(ix.take(a), ix.take(b)) * dims[1] + np.maximum(iy.take(a), iy.take(b))
-    home = home * dims[2] + np.maximum(iz.take(a), iz.take(b))
-    keep = home == cell
-    a, b = a[keep].astype(np.int64), b[keep].astype(np.int64)
+        a, b = a[ok], b[ok]
+    a, b = a.astype(np.int64), b.astype(np.int64)
     swap = a > b
     return np.where(swap, b, a), np.where(swap, a, b)
 
@@ -202,6 +231,8 @@ class _Frame:
         p0, p1, p2 = P[self.faces[:, 0]], P[self.faces[:, 1]], P[self.faces[:, 2]]
         self.p0 = p0
         self.normal = np.cross(p1 - p0, p2 - p0)
+        self.corners = np.stack([p0, p1, p2], axis=1)  # (M, 3, 3): one row gather per pair
+        self.plane = np.concatenate([p0, self.normal], axis=1)  # (M, 6): p0, normal
 
     def plane_value(self, t: np.ndarray, x: np.ndarray) -> np.ndarray:
         """normal_t . (x - p0_t): a deterministic function of (t, x)."""
@@ -226,26 +257,78 @@ class _Frame:
         return (signs[0] == signs[1]) & (signs[1] == signs[2])
 
 
-def _edge_events(fr: _Frame, edge_tri: np.ndarray, edge_k: np.ndarray, target: np.ndarray):
-    """Does edge k of triangle edge_tri pierce triangle target?  Returns (hit, point, p, q)."""
-    f = fr.faces
-    i = f[edge_tri, edge_k]
-    j = f[edge_tri, (edge_k + 1) % 3]
-    lo_v, hi_v = np.minimum(i, j), np.maximum(i, j)
-    p, q = fr.P[lo_v], fr.P[hi_v]
-    op = fr.plane_value(target, p)
-    oq = fr.plane_value(target, q)
-    cross = _sign(op) != _sign(oq)
-    hit = np.zeros(target.size, bool)
-    point = np.zeros((target.size, 3))
-    if cross.any():
-        w = np.flatnonzero(cross)
-        ins = fr.inside_line(target[w], p[w], q[w])
-        w = w[ins]
-        hit[w] = True
-        t = op[w] / (op[w] - oq[w])
-        point[w] = p[w] + (q[w] - p[w]) * t[:, None]
+def _inside_line_rows(ids: np.ndarray, corners: np.ndarray, p: np.ndarray, q: np.ndarray):
+    """_Frame.inside_line with the triangles given by rows: the same predicate, same numbers.
+
+    ids : (K, 3) int vertex indices of the triangles; corners : (K, 3, 3) float64 their
+    positions; p, q : (K, 3) float64 the lines' points in canonical order. Returns (K,) bool.
+    Each edge is taken in the triangle's own order: swapping the last two arguments of the
+    orientation determinant negates it exactly in floating point, so only an exact zero
+    needs the canonical order's tie-break (zero counts as positive in low-index-first order).
+    """
+    a = q - p
+    signs = []
+    for k in range(3):
+        kk = (k + 1) % 3
+        b = corners[:, k] - p
+        c = corners[:, kk] - p
+        o = (
+            a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
+            + a[:, 1] * (b[:, 2] * c[:, 0] - b[:, 0] * c[:, 2])
+            + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0])
+        )
+        s = np.sign(o).astype(np.int8)
+        zero = s == 0
+        if zero.any():
+            s[zero] = np.where(ids[zero, k] < ids[zero, kk], 1, -1)
+        signs.append(s)
+    return (signs[0] == signs[1]) & (signs[1] == signs[2])
+
+
+def _edge_events(
+    ids: np.ndarray,
+    corners: np.ndarray,
+    values: np.ndarray,
+    k: int,
+    target_ids: np.ndarray,
+    target_corners: np.ndarray,
+):
+    """Does edge k of a triangle pierce the target triangle?  Returns (hit, point).
+
+    ids : (K, 3) int the edge's triangle's vertex indices; corners : (K, 3, 3) float64 their
+    positions; values : (K, 3) float64 the target's plane_value at them (the very numbers
+    plane_value gives, so the two pairs sharing an event agree bit for bit); target_ids,
+    target_corners : the target triangles' rows, same shapes.
+    hit : (K,) bool; point : (K, 3) float64 where the edge meets the plane (0 if no hit).
+    """
+    i, j = k, (k + 1) % 3
+    hit = np.zeros(ids.shape[0], bool)
+    point = np.zeros((ids.shape[0], 3))
+    w = np.flatnonzero(_sign(values[:, i]) != _sign(values[:, j]))
+    if w.size == 0:
+        return hit, point
+    swap = ids[w, i] > ids[w, j]  # canonical order: the lower vertex index first
+    lo_c = np.where(swap, j, i)
+    hi_c = np.where(swap, i, j)
+    p, q = corners[w, lo_c], corners[w, hi_c]
+    ins = _inside_line_rows(target_ids[w], target_corners[w], p, q)
+    w, p, q, lo_c, hi_c = w[ins], p[ins], q[ins], lo_c[ins], hi_c[ins]
+    op, oq = values[w, lo_c], values[w, hi_c]
+    hit[w] = True
+    t = op / (op - oq)
+    point[w] = p + (q - p) * t[:, None]
     return hit, point
+
+
+def _plane_values(fr: _Frame, t: np.ndarray, corners: np.ndarray) -> np.ndarray:
+    """plane_value(t, x) at three points per row: corners (K, 3, 3) -> (K, 3) float64.
+
+    The same operations in the same order as _Frame.plane_value, so the same numbers.
+    """
+    pl = fr.plane[t]
+    d = corners - pl[:, None, :3]
+    n = pl[:, None, 3:]
+    return n[..., 0] * d[..., 0] + n[..., 1] * d[..., 1] + n[..., 2] * d[..., 2]
 
 
 # --------------------------------------------------------------------------- main
@@ -292,31 +375,34 @@ def self_intersections(
     a, b = a[keep_pair], b[keep_pair]
     n_candidates = int(a.size)
 
-    # plane straddling (the exact consequence of the event predicate): a pair can have an
-    # event only if one triangle's vertices lie on both sides of the other's plane
-    def straddles(t, s):
-        fs = faces[s]
-        s0 = _sign(fr.plane_value(t, P[fs[:, 0]]))
-        s1 = _sign(fr.plane_value(t, P[fs[:, 1]]))
-        s2 = _sign(fr.plane_value(t, P[fs[:, 2]]))
-        return ~((s0 == s1) & (s1 == s2))
-
-    b_across_a = straddles(a, b)
-    a_across_b = straddles(b, a)
-    keep = b_across_a | a_across_b
-    a, b = a[keep], b[keep]
+    # plane straddling: two triangles can cross only where each has vertices on both sides
+    # of the other's plane (an edge of one piercing the other puts a point of the other on
+    # the first one's plane). Tested one direction at a time, on the survivors of the
+    # first; the plane values are kept for the event tests.
+    ids_a = faces[a]
+    corners_a = fr.corners[a]  # (K, 3, 3)
+    val_a = _plane_values(fr, b, corners_a)  # a's vertices against b's plane
+    sa = _sign(val_a)
+    keep = sa.min(axis=1) != sa.max(axis=1)
+    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
+    ids_b = faces[b]
+    corners_b = fr.corners[b]
+    val_b = _plane_values(fr, a, corners_b)
+    sb = _sign(val_b)
+    keep = sb.min(axis=1) != sb.max(axis=1)
+    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
+    ids_b, corners_b, val_b = ids_b[keep], corners_b[keep], val_b[keep]
     k = a.size
     # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
     hits = np.zeros((k, 6), bool)
     points = np.zeros((k, 6, 3))
     keys = np.zeros((k, 6), np.int64)
     for e in range(3):
-        ke = np.full(k, e)
-        h, pt = _edge_events(fr, a, ke, b)
-        hits[:, e], points[:, e] = h, pt
+        hits[:, e], points[:, e] = _edge_events(ids_a, corners_a, val_a, e, ids_b, corners_b)
         keys[:, e] = topo.face_edges[a, e] * m + b
-        h, pt = _edge_events(fr, b, ke, a)
-        hits[:, 3 + e], points[:, 3 + e] = h, pt
+        hits[:, 3 + e], points[:, 3 + e] = _edge_events(
+            ids_b, corners_b, val_b, e, ids_a, corners_a
+        )
         keys[:, 3 + e] = topo.face_edges[b, e] * m + a
     n_ev = hits.sum(axis=1)
     degenerate = int(np.sum((n_ev != 0) & (n_ev != 2)))
@@ -414,25 +500,26 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     order = np.argsort(owner, kind="stable")
     owner, other = owner[order], other[order]
     starts = np.searchsorted(owner, np.arange(m + 1))
-    cand_seg, cand_tri = [], []
-    for side in range(2):
-        t = seg_faces[:, side]
-        cnt = starts[t + 1] - starts[t]
-        seg_id, local = _expand_ranges(cnt)
-        cand_seg.append(seg_id)
-        cand_tri.append(other[starts[t[seg_id]] + local])
-    seg_id = np.concatenate(cand_seg)
-    c = np.concatenate(cand_tri)
-    pair = np.unique(seg_id * m + c)
+    # a third sheet's triangle c through the segment's point meets both a and b there, so
+    # c is a partner of a that is also a partner of b
+    partner_keys = np.sort(owner * m + other)
+    fa = seg_faces[:, 0]
+    cnt = starts[fa + 1] - starts[fa]
+    seg_id, local = _expand_ranges(cnt)
+    c = other[starts[fa[seg_id]] + local]
+    k = seg_faces[seg_id, 1] * m + c
+    pos = np.minimum(np.searchsorted(partner_keys, k), partner_keys.size - 1)
+    pair = np.sort(seg_id[partner_keys[pos] == k] * m + c[partner_keys[pos] == k])
     seg_id, c = pair // m, pair % m
     fa, fb = seg_faces[seg_id, 0], seg_faces[seg_id, 1]
     # the third sheet must not touch the first two (a local fold is not a triple point)
     faces = fr.faces
     touch = (c == fa) | (c == fb)
+    fc, ffa, ffb = faces[c], faces[fa], faces[fb]
     for i in range(3):
         for j in range(3):
-            touch |= faces[c, i] == faces[fa, j]
-            touch |= faces[c, i] == faces[fb, j]
+            touch |= fc[:, i] == ffa[:, j]
+            touch |= fc[:, i] == ffb[:, j]
     seg_id, c = seg_id[~touch], c[~touch]
     if seg_id.size == 0:
         return empty

@@ -163,6 +163,8 @@ class AnimationReport:
     eversion: EversionCheck | None
     reasons: list[str]
     intersections_checked: bool
+    # QuadruplePoints when check_animation(quadruple=True) looked for them, else None
+    quadruple_points: Any = None
     # kept to recompute per-element data on demand (heat maps, curves)
     _positions: np.ndarray | None = field(repr=False, default=None)
     _topo: MeshTopology | None = field(repr=False, default=None)
@@ -309,6 +311,9 @@ class AnimationReport:
                 "topology": self.topology.to_dict(),
                 "thresholds": self.thresholds.to_dict(),
                 "frames": [f.to_dict() for f in self.frames],
+                "quadruple_points": (
+                    None if self.quadruple_points is None else self.quadruple_points.to_json()
+                ),
             }
         )
 

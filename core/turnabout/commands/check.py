@@ -69,6 +69,11 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
         help="skip double curves and triple points (the slowest part)",
     )  # fmt: skip
     p.add_argument(
+        "--quadruple-points", action="store_true",
+        help="also find the moments where four sheets meet, between frames (needs the "
+        "intersection check)",
+    )  # fmt: skip
+    p.add_argument(
         "--weld", action="store_true", help="merge coincident vertices (seam duplicates) first"
     )
     p.add_argument(
@@ -170,6 +175,8 @@ def run(args: argparse.Namespace) -> int:
     if isinstance(up, str):
         return _error(up)
 
+    if args.quadruple_points and args.no_intersections:
+        return _error("--quadruple-points needs the intersection check: drop --no-intersections")
     names = {f.name for f in fields(Thresholds)}
     overrides = {k: v for k, v in vars(args).items() if k in names and v is not None}
     try:
@@ -200,6 +207,7 @@ def run(args: argparse.Namespace) -> int:
             workers=args.workers,
             level_counts=_level_counts(up),
             level_up=up,
+            quadruple=args.quadruple_points,
         )
     except CheckInputError as exc:
         bar.close()
@@ -239,5 +247,15 @@ def run(args: argparse.Namespace) -> int:
                 f"domes + bowls - saddles = {lo if lo == hi else f'{lo}..{hi}'}, chi/2 = "
                 f"{t.euler_characteristic / 2:g}" + (f", differs in {off} frame(s)" if off else "")
             )
+        q = report.quadruple_points
+        if q is not None:
+            print(f"  quadruple points: {q.count}"
+                  + ("" if q.general_position else " (not in general position)"))  # fmt: skip
+            for k in range(min(q.count, 10)):
+                x, y, z = q.position[k]
+                print(f"    frame {q.time[k]:.4f} at ({x:.4g}, {y:.4g}, {z:.4g}), "
+                      f"faces {', '.join(str(int(f)) for f in q.faces[k])}")  # fmt: skip
+            for note in q.notes:
+                print(f"    {note}")
         print(f"verdict: {report.verdict}; everted: {'yes' if report.everted else 'no'}")
     return 1 if failing else 0

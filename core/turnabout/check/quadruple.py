@@ -1,0 +1,577 @@
+"""Quadruple points of a mesh animation: moments where four sheets pass through one point.
+
+Between frames k and k + 1 every vertex moves on a straight line, x(s) = (1 - s) P_k + s
+P_k+1 for s in [0, 1]. A triangle's plane is then n(s) . x = n(s) . p0(s) with the normal
+n(s) = (p1 - p0) x (p2 - p0) quadratic in s and the offset n(s) . p0(s) cubic. Four planes
+have a common point exactly when
+
+    D(s) = det [ n_i(s)  -n_i(s) . p0_i(s) ]  (i = 1..4, a 4 x 4 matrix)
+
+vanishes, a polynomial of degree at most 3 * 2 + 3 = 9 in s. (Equivalently: the point where
+three of the planes meet is x(s) = N(s) / det[n_1, n_2, n_3] by Cramer's rule, a rational
+function of s, and the fourth plane's value along it is D(s) / det[n_1, n_2, n_3].) D is
+sampled at ten Chebyshev nodes, which fixes it exactly; its real roots in [0, 1] are
+bracketed on a fine grid and refined by bisection; each root's common point is kept when
+it lies inside all four moving triangles.
+
+Candidates grow from the triple points at the two ends of the interval (the moving triple
+point of three sheets is what meets the fourth): each triple of triangles is widened by
+letting one triangle be any that shares a vertex with it (the triple point may cross an
+edge during the interval), and two widened triples that share two triangles make a
+candidate when their other two triangles may meet while moving: no shared vertex,
+overlapping boxes of the six end positions (the convex hull of which holds the moving
+triangle), and no separation along either mid-motion normal. Near the moment all four
+triples are triple points, so at least two are seen. This assumes a triple point crosses at
+most about one triangle edge between two seeding positions: an interval where some vertex
+moves further than the mean length of its edges (the checker's step metric) is also seeded
+from intermediate positions, one per such length moved, and ``substeps`` asks for more.
+
+Confirmation (the change in the triple points' structure): just before and just after the
+moment, the four triple points of the four sheets taken three at a time span a small
+tetrahedron; at a transverse quadruple point it collapses to the point and comes back
+mirrored, so its orientation (the sign of its volume) flips. Detections that do not flip
+are reported as unconfirmed.
+
+General position: Max and Banchoff ("Every sphere eversion has a quadruple point", in
+Contributions to Analysis and Geometry, Johns Hopkins University Press, 1981) prove that a
+sphere eversion in general position has an odd number of quadruple points. A symmetric
+motion is not in general position: several quadruple points at one moment (copies under
+the symmetry), more than four sheets through one point, four planes that keep a common
+point for a whole interval, or four sheets through one point at a frame with no quadruple
+point detected next to it. These are reported in ``notes`` and ``general_position`` is
+False, so a count is never read as a parity it cannot carry.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..progress import ProgressFn, no_progress
+from .intersections import grid_candidate_pairs, self_intersections
+from .topology import MeshTopology, as_triangles
+
+DEGREE = 9  # degree of D(s)
+CHUNK = 20000  # quadruples solved at once (memory: about 10 kB each)
+ROOT_GRID = 256  # samples of D(s) on [0, 1] used to bracket its roots
+SAME_MOMENT = 1e-7  # detections closer than this in s (and in space) are one point
+SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
+EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
+# edge lengths, within a frame of its moment) is that quadruple point seen at the frame
+_TINY = 1e-300
+MAX_STEP = 1.0  # local edge lengths (mean at the vertex) moved between seeding positions
+MAX_PIECES = 16
+INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
+# is found in both triangles and merged)
+
+
+@dataclass
+class QuadruplePoints:
+    """Quadruple points of an animation.
+
+    interval : (Q,) int64 frame k of the interval [k, k + 1] holding each point
+    time : (Q,) float64 the moment, in frames (k + s)
+    position : (Q, 3) float64 where the four sheets meet
+    faces : (Q, 4) int64 one triangle of each of the four sheets
+    confirmed : (Q,) bool the triple points' tetrahedron turns inside out across the moment
+    general_position : False when the motion is visibly not generic (see notes)
+    notes : human-readable reasons
+    candidates : quadruples of triangles tested (all intervals)
+    """
+
+    interval: np.ndarray
+    time: np.ndarray
+    position: np.ndarray
+    faces: np.ndarray
+    confirmed: np.ndarray
+    general_position: bool = True
+    notes: list[str] = field(default_factory=list)
+    candidates: int = 0
+
+    @property
+    def count(self) -> int:
+        return int(self.time.size)
+
+    def to_json(self) -> dict:
+        """A JSON-ready dict (lists of plain numbers)."""
+        return {
+            "count": self.count,
+            "general_position": bool(self.general_position),
+            "notes": list(self.notes),
+            "points": [
+                {
+                    "frames": [int(k), int(k) + 1],
+                    "time": round(float(t), 9),
+                    "position": [round(float(v), 9) for v in p],
+                    "faces": [int(f) for f in fs],
+                    "confirmed": bool(c),
+                }
+                for k, t, p, fs, c in zip(
+                    self.interval,
+                    self.time,
+                    self.position,
+                    self.faces,
+                    self.confirmed,
+                    strict=True,
+                )
+            ],
+        }
+
+
+# --------------------------------------------------------------------------- candidates
+
+
+def swept_pairs(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
+    """Pairs (a, b), a < b, of triangles sharing no vertex that may meet while moving.
+
+    P0, P1 : (V, 3) float64 positions at the ends of a (short) linear motion. The moving
+    triangle stays in the convex hull of its six end positions; a pair is kept when the
+    hulls' boxes overlap and neither triangle's mid-motion normal separates the hulls
+    (a separating axis rules out any contact). Returns two (K,) int64.
+    """
+    faces = topo.faces
+    corners = np.concatenate([P0[faces], P1[faces]], axis=1)  # (M, 6, 3)
+    a, b = grid_candidate_pairs(corners.min(axis=1), corners.max(axis=1))
+    fa, fb = faces[a], faces[b]
+    share = np.zeros(a.size, bool)
+    for i in range(3):
+        for j in range(3):
+            share |= fa[:, i] == fb[:, j]
+    a, b = a[~share], b[~share]
+    mid = 0.5 * (corners[:, :3] + corners[:, 3:])
+    n = np.cross(mid[:, 1] - mid[:, 0], mid[:, 2] - mid[:, 0])
+    n /= np.maximum(np.linalg.norm(n, axis=1, keepdims=True), 1e-300)
+    keep = np.ones(a.size, bool)
+    for t, o in ((a, b), (b, a)):
+        own = np.einsum("kvi,ki->kv", corners[t], n[t])
+        other = np.einsum("kvi,ki->kv", corners[o], n[t])
+        margin = 1e-9 * (np.abs(own).max(axis=1) + np.abs(other).max(axis=1))
+        keep &= ~(
+            (other.min(axis=1) > own.max(axis=1) + margin)
+            | (other.max(axis=1) < own.min(axis=1) - margin)
+        )
+    return a[keep], b[keep]
+
+
+def face_rings(topo: MeshTopology) -> tuple[np.ndarray, np.ndarray]:
+    """Faces sharing a vertex with each face (itself included), as CSR (start (M+1,), ids)."""
+    m = topo.n_faces
+    f = np.repeat(np.arange(m), 3)
+    v = topo.faces.ravel()
+    order = np.argsort(v, kind="stable")
+    v, f = v[order], f[order]
+    vstart = np.searchsorted(v, np.arange(topo.n_vertices + 1))
+    cnt = np.diff(vstart)[v]  # faces at each corner's vertex
+    owner = np.repeat(f, cnt)
+    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    other = f[np.repeat(vstart[v], cnt) + local]
+    key = np.unique(owner * m + other)
+    return np.searchsorted(key // m, np.arange(m + 1)), key % m
+
+
+def _csr_pairs(a: np.ndarray, b: np.ndarray, m: int):
+    """Symmetric adjacency of the pairs (a, b) as CSR (start (m+1,), ids) and sorted keys."""
+    u = np.concatenate([a, b])
+    w = np.concatenate([b, a])
+    key = np.unique(u * m + w)
+    return np.searchsorted(key // m, np.arange(m + 1)), key % m, key
+
+
+def _expand(start: np.ndarray, ids: np.ndarray, rows: np.ndarray, col: int) -> np.ndarray:
+    """Rows (R, k) with column ``col`` replaced by each of its CSR neighbours: (R', k)."""
+    v = rows[:, col]
+    cnt = start[v + 1] - start[v]
+    owner = np.repeat(np.arange(rows.shape[0]), cnt)
+    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    out = rows[owner].copy()
+    out[:, col] = ids[start[v[owner]] + local]
+    return out
+
+
+def seeded_quadruples(
+    triples: np.ndarray, P0: np.ndarray, P1: np.ndarray, topo: MeshTopology
+) -> np.ndarray:
+    """Candidate quadruples (Q, 4) int64 (sorted rows, unique) grown from triple points.
+
+    triples : (T, 3) int the three triangles of each triple point seen at either end of the
+    interval. Each triple is widened by letting one of its triangles be any triangle that
+    shares a vertex with it (the triple point may cross an edge during the interval); two
+    widened triples sharing two triangles whose other two may meet (swept_pairs) make a
+    quadruple.
+    """
+    m = topo.n_faces
+    if triples.shape[0] == 0:
+        return np.zeros((0, 4), np.int64)
+    rs, rid = face_rings(topo)
+    t = np.sort(np.asarray(triples, np.int64), axis=1)
+    wide = np.unique(np.sort(np.concatenate([_expand(rs, rid, t, c) for c in range(3)]), 1), axis=0)
+    wide = wide[(wide[:, 0] != wide[:, 1]) & (wide[:, 1] != wide[:, 2])]
+    a, b = swept_pairs(P0, P1, topo)
+    ps, pid, keys = _csr_pairs(a, b, m)
+
+    def has(u, v):
+        k = u * m + v
+        pos = np.minimum(np.searchsorted(keys, k), max(keys.size - 1, 0))
+        return keys[pos] == k if keys.size else np.zeros(k.shape, bool)
+
+    # the widened triple must itself be pairwise in the swept graph
+    ok = has(wide[:, 0], wide[:, 1]) & has(wide[:, 0], wide[:, 2]) & has(wide[:, 1], wide[:, 2])
+    wide = wide[ok]
+    # two widened triples sharing two triangles make a quadruple (near the moment all four
+    # of its triples are triple points, so at least two of them are seen)
+    pair_key = np.concatenate([wide[:, 0] * m + wide[:, 1], wide[:, 0] * m + wide[:, 2],
+                               wide[:, 1] * m + wide[:, 2]])  # fmt: skip
+    third = np.concatenate([wide[:, 2], wide[:, 1], wide[:, 0]])
+    order = np.lexsort((third, pair_key))
+    pair_key, third = pair_key[order], third[order]
+    new = np.ones(pair_key.size, bool)
+    new[1:] = pair_key[1:] != pair_key[:-1]
+    gstart = np.flatnonzero(new)
+    gsize = np.diff(np.append(gstart, pair_key.size))
+    partners = np.repeat(gstart + gsize, gsize) - np.arange(pair_key.size) - 1
+    first = np.repeat(np.arange(pair_key.size), partners)
+    second = first + 1 + np.arange(first.size) - np.repeat(np.cumsum(partners) - partners, partners)
+    c, d = third[first], third[second]
+    ok = (c != d) & has(np.minimum(c, d), np.maximum(c, d))
+    pk = pair_key[first[ok]]
+    quad = np.sort(np.column_stack([pk // m, pk % m, c[ok], d[ok]]), axis=1)
+    return np.unique(quad, axis=0) if quad.size else np.zeros((0, 4), np.int64)
+
+
+# --------------------------------------------------------------------------- D(s)
+
+
+def _chebyshev_nodes(n: int) -> np.ndarray:
+    return 0.5 - 0.5 * np.cos(np.pi * (np.arange(n) + 0.5) / n)
+
+
+_NODES = _chebyshev_nodes(DEGREE + 1)
+_CHEB_AT_NODES = np.polynomial.chebyshev.chebvander(2 * _NODES - 1, DEGREE)
+_FROM_NODES = np.linalg.inv(_CHEB_AT_NODES)
+_GRID = np.linspace(0.0, 1.0, ROOT_GRID + 1)
+_CHEB_AT_GRID = np.polynomial.chebyshev.chebvander(2 * _GRID - 1, DEGREE)
+
+
+def _planes(C0: np.ndarray, C1: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """Rows [n, -n . p0] of moving triangles: C0, C1 (..., 3, 3) corners at the ends, s
+    broadcastable to (...). Returns (..., 4) float64."""
+    s = np.asarray(s, np.float64)[..., None, None]
+    C = C0 + (C1 - C0) * s
+    n = np.cross(C[..., 1, :] - C[..., 0, :], C[..., 2, :] - C[..., 0, :])
+    return np.concatenate([n, -np.sum(n * C[..., 0, :], axis=-1, keepdims=True)], axis=-1)
+
+
+def _det_at(C0: np.ndarray, C1: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """D(s) of quadruples: C0, C1 (Q, 4, 3, 3); s (Q, k) -> (Q, k) float64."""
+    rows = _planes(C0[:, None], C1[:, None], s[:, :, None])  # (Q, k, 4, 4)
+    return np.linalg.det(rows)
+
+
+def _roots(coef: np.ndarray, scale: np.ndarray):
+    """Simple real roots in [0, 1] of Chebyshev series coef (Q, 10) (in x = 2 s - 1).
+
+    Returns (quad index, s) for every sign change on the grid, refined by bisection, and a
+    (Q,) bool mask of series that vanish identically (relative to ``scale``)."""
+    flat = np.abs(coef).max(axis=1) <= 1e-12 * scale
+    vals = coef @ _CHEB_AT_GRID.T  # (Q, G + 1)
+    sg = np.sign(vals)
+    q, g = np.nonzero((sg[:, :-1] * sg[:, 1:] < 0) | ((sg[:, :-1] == 0) & (sg[:, 1:] != 0)))
+    keep = ~flat[q]
+    q, g = q[keep], g[keep]
+    lo, hi = _GRID[g].copy(), _GRID[g + 1].copy()
+    c = coef[q]
+    f_lo = np.polynomial.chebyshev.chebval(2 * lo - 1, c.T, tensor=False)
+    for _ in range(52):
+        mid = 0.5 * (lo + hi)
+        f_mid = np.polynomial.chebyshev.chebval(2 * mid - 1, c.T, tensor=False)
+        left = np.sign(f_mid) * np.sign(f_lo) <= 0
+        hi = np.where(left, mid, hi)
+        lo = np.where(left, lo, mid)
+        f_lo = np.where(left, f_lo, f_mid)
+    return q, 0.5 * (lo + hi), flat
+
+
+def _common_point(rows: np.ndarray) -> np.ndarray:
+    """Least-squares point of planes rows (Q, k, 4) (n . x + d = 0): (Q, 3)."""
+    A, d = rows[..., :3], -rows[..., 3]
+    size = np.maximum(np.linalg.norm(A, axis=-1), 1e-300)
+    An = A / size[..., None]
+    dn = d / size
+    AtA = np.einsum("qki,qkj->qij", An, An)
+    Atb = np.einsum("qki,qk->qi", An, dn)
+    x = np.full((A.shape[0], 3), np.nan)
+    ok = np.abs(np.linalg.det(AtA)) > 1e-12
+    if ok.any():
+        x[ok] = np.linalg.solve(AtA[ok], Atb[ok][..., None])[..., 0]
+    return x
+
+
+def _inside(C: np.ndarray, x: np.ndarray, tol: float = INSIDE_TOL) -> np.ndarray:
+    """Is x (Q, 3) inside (the prism over) each triangle C (Q, 4, 3, 3)?  (Q,) bool."""
+    n = np.cross(C[..., 1, :] - C[..., 0, :], C[..., 2, :] - C[..., 0, :])  # (Q, 4, 3)
+    nn = np.sum(n * n, axis=-1)
+    ok = np.ones(x.shape[0], bool)
+    for k in range(3):
+        u = C[..., (k + 1) % 3, :] - x[:, None]
+        v = C[..., (k + 2) % 3, :] - x[:, None]
+        w = np.sum(np.cross(u, v) * n, axis=-1)
+        ok &= np.all(w >= -tol * nn, axis=1)
+    return ok
+
+
+def _tetra_sign(C0, C1, s) -> np.ndarray:
+    """Orientation of the four triple points (three planes at a time) at s: (Q,) sign."""
+    rows = _planes(C0, C1, s[:, None])  # (Q, 4, 4)
+    pts = []
+    for skip in range(4):
+        sub = np.delete(rows, skip, axis=1)
+        M = sub[..., :3]
+        p = np.zeros((M.shape[0], 3))
+        ok = np.abs(np.linalg.det(M)) > 0
+        if ok.any():
+            p[ok] = np.linalg.solve(M[ok], -sub[ok][..., 3:])[..., 0]
+        pts.append(p)
+    e1, e2, e3 = pts[1] - pts[0], pts[2] - pts[0], pts[3] - pts[0]
+    return np.sign(np.sum(np.cross(e1, e2) * e3, axis=-1))
+
+
+# --------------------------------------------------------------------------- per interval
+
+
+def quadruple_points_between(
+    P0: np.ndarray, P1: np.ndarray, topo: MeshTopology, triples: np.ndarray
+):
+    """Quadruple points while the vertices move linearly from P0 to P1 ((V, 3) float).
+
+    triples : (T, 3) int triangles of the triple points at either end (seeds of the
+    candidates, see seeded_quadruples). Returns unmerged detections (s (N,), position
+    (N, 3), faces (N, 4), confirmed (N,)), the count of quadruples whose four planes keep a
+    common point for the whole interval, and the count of candidates.
+    """
+    P0 = np.asarray(P0, np.float64)
+    P1 = np.asarray(P1, np.float64)
+    quads = seeded_quadruples(triples, P0, P1, topo)
+    empty = (np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4), np.int64), np.zeros(0, bool))
+    if quads.shape[0] == 0:
+        return (*empty, 0, 0)
+    if quads.shape[0] > CHUNK:
+        out = [quadruple_points_between_quads(P0, P1, topo, quads[i : i + CHUNK])
+               for i in range(0, quads.shape[0], CHUNK)]  # fmt: skip
+        return (np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out]),
+                np.concatenate([o[2] for o in out]), np.concatenate([o[3] for o in out]),
+                sum(o[4] for o in out), int(quads.shape[0]))  # fmt: skip
+    return quadruple_points_between_quads(P0, P1, topo, quads)
+
+
+def quadruple_points_between_quads(P0, P1, topo: MeshTopology, quads: np.ndarray):
+    """quadruple_points_between for given candidate quadruples (Q, 4) int64."""
+    empty = (np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4), np.int64), np.zeros(0, bool))
+    if quads.shape[0] == 0:
+        return (*empty, 0, 0)
+    faces = topo.faces
+    C0, C1 = P0[faces[quads]], P1[faces[quads]]  # (Q, 4, 3, 3)
+    vals = _det_at(C0, C1, np.broadcast_to(_NODES, (quads.shape[0], _NODES.size)))
+    coef = vals @ _FROM_NODES.T
+    # scale of D: product of the four rows' sizes, at the nodes
+    rows = _planes(C0[:, None], C1[:, None], _NODES[None, :, None])
+    scale = np.prod(np.linalg.norm(rows, axis=-1), axis=-1).max(axis=1)
+    q, s, flat = _roots(coef, scale)
+    if q.size == 0:
+        return (*empty, int(flat.sum()), int(quads.shape[0]))
+    Cs = C0[q] + (C1[q] - C0[q]) * s[:, None, None, None]
+    x = _common_point(_planes(C0[q], C1[q], s[:, None]))
+    ok = np.all(np.isfinite(x), axis=1)
+    ok[ok] = _inside(Cs[ok], x[ok])
+    q, s, x = q[ok], s[ok], x[ok]
+    delta = np.full(s.size, 1e-4)
+    confirmed = _tetra_sign(C0[q], C1[q], np.clip(s - delta, 0, 1)) != _tetra_sign(
+        C0[q], C1[q], np.clip(s + delta, 0, 1)
+    )
+    return s, x, quads[q], confirmed, int(flat.sum()), int(quads.shape[0])
+
+
+def _merge(interval, s, x, fq, confirmed, length: float):
+    """One detection per point: same interval, |ds| < SAME_MOMENT, |dx| < SAME_PLACE * length.
+
+    Returns the kept indices (ordered by interval, then s) and, per kept point, the set of
+    distinct faces of its group; ``confirmed`` is or-ed over each group in place."""
+    order = np.lexsort((s, interval)).tolist()
+    keep: list[int] = []
+    groups: list[set[int]] = []
+    for i in order:
+        g = len(keep) - 1
+        while g >= 0 and interval[keep[g]] == interval[i] and s[i] - s[keep[g]] < SAME_MOMENT:
+            j = keep[g]
+            if np.linalg.norm(x[j] - x[i]) < SAME_PLACE * length:
+                groups[g].update(fq[i].tolist())
+                confirmed[j] |= confirmed[i]
+                break
+            g -= 1
+        else:
+            keep.append(i)
+            groups.append(set(fq[i].tolist()))
+    return np.array(keep, np.int64), groups
+
+
+def _sheet_count(face_ids: set[int], faces: np.ndarray) -> int:
+    """Sheets among triangles: groups of triangles linked by shared vertices."""
+    ids = sorted(face_ids)
+    parent = list(range(len(ids)))
+
+    def root(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    for i in range(len(ids)):
+        for j in range(i + 1, len(ids)):
+            if set(faces[ids[i]].tolist()) & set(faces[ids[j]].tolist()):
+                parent[root(i)] = root(j)
+    return len({root(i) for i in range(len(ids))})
+
+
+def quadruple_points(
+    positions,
+    faces,
+    progress: ProgressFn | None = None,
+    frame_intersections: dict | None = None,
+    substeps: int = 1,
+) -> QuadruplePoints:
+    """Quadruple points of an animation of a fixed triangle mesh.
+
+    positions : (F, V, 3) float32/float64 (F >= 2); faces : (M, 3) int;
+    frame_intersections : optional {frame: IntersectionResult} already computed for these
+    positions (a frame missing from it has no triple point); computed here when None.
+    substeps : seed every interval from at least this many equal steps (1 to MAX_PIECES):
+    triple points can move much faster than the vertices near tangencies, so a coarse
+    animation may need more. progress(done, total) is called once per frame computed and
+    once per interval. Moments are in frames (k + s).
+    """
+    from .animation import sheets_meeting
+
+    if isinstance(substeps, bool) or not isinstance(substeps, int | np.integer):
+        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
+    if not 1 <= substeps <= MAX_PIECES:
+        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
+    progress = no_progress if progress is None else progress
+    P = np.asarray(positions, np.float64)
+    if P.ndim != 3 or P.shape[0] < 2 or P.shape[2] != 3:
+        raise ValueError(f"positions must be (frames >= 2, V, 3), got {P.shape}")
+    tri = as_triangles(np.asarray(faces), P.shape[1])
+    topo = MeshTopology(tri, P.shape[1])
+    n_frames = P.shape[0]
+    n_int = n_frames - 1
+    parts = []
+    flat_total = 0
+    cand_total = 0
+    crowded_points: list[tuple[int, np.ndarray, float]] = []
+    total = n_int + (0 if frame_intersections is not None else n_frames)
+    done = 0
+    if frame_intersections is None:
+        frame_intersections = {}
+        for k in range(n_frames):
+            frame_intersections[k] = self_intersections(P[k], topo)
+            done += 1
+            progress(done, total)
+    triples = []
+    for k in range(n_frames):
+        res = frame_intersections.get(k)
+        triples.append(np.zeros((0, 3), np.int64) if res is None else res.triple_faces)
+        if res is not None and res.triple_detections.size:
+            # detection counts that only k >= 4 sheets through one point explain (several
+            # distinct triple points merged in a crumpled region give other multiples of 3)
+            where = np.flatnonzero(sheets_meeting(res.triple_detections) >= 4)
+            f0 = topo.faces[res.triple_faces[where, 0]]
+            size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
+            crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
+    # local edge length at each vertex: the mean length of its edges, as the checker's
+    # step metric measures it (averaged over the interval's two ends)
+    ev = topo.edges
+    degree = np.maximum(np.bincount(ev.ravel(), minlength=P.shape[1]), 1)
+
+    def local_length(X: np.ndarray) -> np.ndarray:
+        el = np.linalg.norm(X[ev[:, 1]] - X[ev[:, 0]], axis=1)
+        return np.bincount(ev.ravel(), np.repeat(el, 2), minlength=X.shape[0]) / degree
+
+    len_next = local_length(P[0])
+    for k in range(n_int):
+        parts_seeds = [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
+        # a fast interval (some vertex moving more than its local edge length) is also
+        # seeded from the triple points of intermediate positions, one per length moved
+        len_here, len_next = len_next, local_length(P[k + 1])
+        mean_len = np.maximum(0.5 * (len_here + len_next), _TINY)
+        step = float(np.max(np.linalg.norm(P[k + 1] - P[k], axis=1) / mean_len))
+        pieces = int(min(max(np.ceil(step / MAX_STEP), substeps), MAX_PIECES))
+        for j in range(1, pieces):
+            Pj = P[k] + (P[k + 1] - P[k]) * (j / pieces)
+            parts_seeds.append(self_intersections(Pj, topo).triple_faces)
+        seeds = np.concatenate(parts_seeds)
+        s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
+        flat_total += flat
+        cand_total += cand
+        parts.append((np.full(s.size, k), s, x, fq, conf))
+        done += 1
+        progress(done, total)
+    interval = np.concatenate([p[0] for p in parts]).astype(np.int64)
+    s = np.concatenate([p[1] for p in parts])
+    x = np.concatenate([p[2] for p in parts]).reshape(-1, 3)
+    fq = np.concatenate([p[3] for p in parts]).reshape(-1, 4).astype(np.int64)
+    conf = np.concatenate([p[4] for p in parts]).astype(bool)
+    e = P[0][topo.edges[:, 1]] - P[0][topo.edges[:, 0]]
+    length = float(np.linalg.norm(e, axis=1).mean()) if e.size else 1.0
+    keep, groups = _merge(interval, s, x, fq, conf, length)
+    notes: list[str] = []
+    crowded = [g for g in groups if _sheet_count(g, topo.faces) > 4]
+    if crowded:
+        most = max(_sheet_count(g, topo.faces) for g in crowded)
+        notes.append(
+            f"{len(crowded)} point(s) where more than four sheets meet (up to {most}): "
+            "the motion is not in general position"
+        )
+    it, sk = interval[keep], s[keep]
+    same_moment = 0
+    if keep.size > 1:
+        o = np.lexsort((sk, it))
+        close = (np.diff(it[o]) == 0) & (np.diff(sk[o]) < SAME_MOMENT)
+        same_moment = int(close.sum())
+    if same_moment:
+        notes.append(
+            f"{same_moment + 1 if same_moment == 1 else same_moment} quadruple point(s) share "
+            "their moment with another one elsewhere (symmetric copies): the motion is not in "
+            "general position"
+        )
+    # four triple points within the merge radius at a frame are expected when the frame lies
+    # within a small fraction of a frame of a quadruple point (the four shrink to it): only
+    # those no detected quadruple point explains say the motion is not generic
+    when = it + sk
+    unexplained = [
+        k
+        for k, pos, size in crowded_points
+        if not np.any(
+            (np.abs(when - k) <= 1.0)
+            & (np.linalg.norm(x[keep] - pos, axis=1) <= EXPLAINED * max(size, _TINY))
+        )
+    ]
+    crowded_frames = len(set(unexplained))
+    if crowded_frames:
+        notes.append(
+            f"{crowded_frames} frame(s) with points where four or more sheets meet "
+            "(coincident triple points): the motion is not in general position"
+        )
+    if flat_total:
+        notes.append(
+            f"{flat_total} quadruple(s) of triangles whose planes keep a common point for a "
+            "whole interval: the motion is not in general position"
+        )
+    return QuadruplePoints(
+        interval=it,
+        time=it + sk,
+        position=x[keep],
+        faces=fq[keep],
+        confirmed=conf[keep],
+        general_position=not notes,
+        notes=notes,
+        candidates=cand_total,
+    )
