@@ -122,6 +122,12 @@ def add_parser(subparsers, name: str):
             action="store_true",
             help="use the .blend's own engine, size and samples",
         )
+        p.add_argument(
+            "--side-by-side",
+            action="store_true",
+            help="render the band camera's top view and the side view next to each other "
+            "(a file made with --slices; each image is twice the width)",
+        )
         p.set_defaults(run=run_render)
     elif name == "demo":
         p.add_argument(
@@ -240,9 +246,8 @@ def run_render(args) -> int:
     if not _bpy_or_message("render"):
         return 2
     import bpy
-    from turnabout.progress import ProgressBar
-
     from turnabout.output import check_output_folder
+    from turnabout.progress import ProgressBar
 
     from . import headless
 
@@ -252,6 +257,21 @@ def run_render(args) -> int:
         headless.open_blend(args.blend)
         scene = bpy.context.scene
         frames = headless.parse_frames(args.frames, (scene.frame_start, scene.frame_end))
+        render_one = None
+        if args.side_by_side:
+            from . import view_rigs
+
+            try:  # refused here, before any render
+                cameras = view_rigs.find_band_cameras(scene)
+            except view_rigs.RigError as exc:
+                raise headless.HeadlessError(
+                    f"--side-by-side: {exc}; make the file with "
+                    "'turnabout scene FILE --slices COUNT --slice WHICH'"
+                ) from None
+
+            def render_one(path, frame):
+                view_rigs.render_side_by_side(scene, path, frame, cameras=cameras)
+
         if not args.keep_settings:
             headless.configure_render(scene, args.engine, args.size, args.samples)
         t0 = time.perf_counter()
@@ -262,6 +282,7 @@ def run_render(args) -> int:
                 frames,
                 resume=not args.overwrite,
                 progress=bar,
+                render_one=render_one,
             )
     except (ValueError, OSError, RuntimeError) as exc:
         return _fail("render", exc)

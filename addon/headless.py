@@ -239,11 +239,15 @@ def blender_output_silenced():
         os.close(devnull)
 
 
-def render_frames(scene, out_dir: str, frames, resume: bool = True, progress=None):
+def render_frames(
+    scene, out_dir: str, frames, resume: bool = True, progress=None, render_one=None
+):
     """Render each frame to ``out_dir/frame_NNNN.png``; returns (rendered, skipped) lists.
 
     With ``resume`` frames whose PNG already exists are skipped. Each image is written
     to a temporary name and renamed, so an interrupted run leaves no half file.
+    ``render_one(path, frame)``, when given, writes a frame's image instead of a plain
+    render from the scene camera (it must write atomically too).
     """
     from turnabout.output import check_output_folder
 
@@ -258,6 +262,10 @@ def render_frames(scene, out_dir: str, frames, resume: bool = True, progress=Non
             path = frame_path(out_dir, f)
             if resume and os.path.isfile(path) and os.path.getsize(path) > 0:
                 skipped.append(f)
+            elif render_one is not None:
+                with blender_output_silenced():
+                    render_one(path, f)
+                rendered.append(f)
             else:
                 scene.frame_set(f)
                 tmp = _fresh_name(path[: -len(".png")], ".png")

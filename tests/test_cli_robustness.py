@@ -160,7 +160,7 @@ def test_strips_outside_the_working_range_are_refused_up_front_with_that_range(
 @pytest.mark.parametrize("strips, depth", [(8, 0.13), (16, 0.13), (16, 0.16)])
 def test_the_documented_range_passes_the_build_gate(strips, depth):
     # the ends of the documented ranges (README: strips 8-16, depth 0.13-0.16) must build
-    from turnabout.eversion import Controls, MAX_STRIPS, depth_range
+    from turnabout.eversion import MAX_STRIPS, Controls, depth_range
     from turnabout.eversion.regularity import require_regular
 
     assert MAX_STRIPS == 16 and depth_range(strips) == (0.13, 0.16)

@@ -236,7 +236,6 @@ def run_morph(args) -> int:
         track_marks,
     )
     from ..curves.files import read_curve, write_npz_atomic
-
     from ..output import OutputError, check_output_file, check_suffix
 
     direction = math.radians(args.direction)
