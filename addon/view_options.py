@@ -142,18 +142,14 @@ def parse_reveal(text: str, option: str = "reveal") -> tuple[str, int | None]:
 
 
 def parse_vector(text, option: str = "up") -> tuple[float, float, float]:
-    """``X,Y,Z`` -> a unit 3-vector; zero, NaN or infinite vectors are refused."""
+    """``X,Y,Z`` -> a unit 3-vector; zero, NaN or infinite vectors are refused (the core's
+    one up-direction rule)."""
+    from turnabout.views.levels import LevelPointError, up_from_text
+
     try:
-        v = [float(p) for p in str(text).split(",")]
-    except ValueError:
-        v = []
-    if len(v) != 3:
-        raise ViewOptionError(f"{option}: must be three numbers X,Y,Z, got {text!r}")
-    a = np.asarray(v, float)
-    norm = float(np.linalg.norm(a))
-    if not np.all(np.isfinite(a)) or norm < 1e-9:
-        raise ViewOptionError(f"{option}: must be a non-zero finite direction, got {text!r}")
-    return tuple(float(x) for x in a / norm)
+        return up_from_text(text, option)
+    except LevelPointError as exc:
+        raise ViewOptionError(str(exc)) from None
 
 
 def parse_frame_pair(text, first: int, last: int, option: str) -> tuple[int, int]:

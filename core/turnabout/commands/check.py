@@ -132,21 +132,12 @@ def _check_outputs(args) -> None:
 
 def _parse_up(text: str) -> tuple[float, float, float] | str:
     """The unit vector of ``--up X,Y,Z``, or an error message naming the option."""
-    import math
+    from ..views.levels import LevelPointError, up_from_text
 
-    parts = str(text).split(",")
     try:
-        xyz = [float(v) for v in parts]
-    except ValueError:
-        xyz = []
-    if len(xyz) != 3:
-        return f"--up must be three numbers X,Y,Z separated by commas, got {text!r}"
-    if not all(math.isfinite(v) for v in xyz):
-        return f"--up must be finite numbers, got {text!r}"
-    norm = math.sqrt(sum(v * v for v in xyz))
-    if not norm > 1e-300:
-        return f"--up must be a non-zero vector, got {text!r}"
-    return (xyz[0] / norm, xyz[1] / norm, xyz[2] / norm)
+        return up_from_text(text, "--up")
+    except LevelPointError as exc:
+        return str(exc)
 
 
 def _level_counts(up):

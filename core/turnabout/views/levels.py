@@ -98,20 +98,37 @@ class LevelPoints:
         return out
 
 
-def unit_up(up) -> np.ndarray:
-    """(3,) float64 unit vector from a 3-vector; LevelPointError for zero / NaN / infinity."""
+def unit_up(up, option: str = "up") -> np.ndarray:
+    """(3,) float64 unit vector from a 3-vector; LevelPointError for zero / NaN / infinity.
+
+    The one rule for an "up" direction (level points, slices, camera rigs, ``--up``);
+    messages name ``option``.
+    """
     try:
         u = np.asarray(up, dtype=np.float64)
     except (TypeError, ValueError):
-        raise LevelPointError(f"up must be three numbers, got {up!r}") from None
+        raise LevelPointError(f"{option}: must be three numbers, got {up!r}") from None
     if u.shape != (3,):
-        raise LevelPointError(f"up must be three numbers (x, y, z), got shape {u.shape}")
+        raise LevelPointError(f"{option}: must be three numbers X,Y,Z, got {up!r}")
     if not np.all(np.isfinite(u)):
-        raise LevelPointError(f"up must be finite, got {tuple(u.tolist())}")
+        raise LevelPointError(f"{option}: must be three finite numbers, got {up!r}")
     norm = float(np.sqrt(u @ u))
     if not norm > 1e-300:
-        raise LevelPointError("up must be a non-zero vector, got (0, 0, 0)")
+        raise LevelPointError(
+            f"{option}: must be a non-zero direction such as (0, 0, 1), got {up!r}"
+        )
     return u / norm
+
+
+def up_from_text(text: str, option: str = "--up") -> tuple[float, float, float]:
+    """``"X,Y,Z"`` (a command-line value) -> the unit up direction; LevelPointError naming
+    ``option`` for anything else."""
+    try:
+        xyz = [float(v) for v in str(text).split(",")]
+    except ValueError:
+        raise LevelPointError(f"{option}: must be three numbers X,Y,Z, got {text!r}") from None
+    u = unit_up(xyz if len(xyz) == 3 else text, option)
+    return (float(u[0]), float(u[1]), float(u[2]))
 
 
 class LevelTopology:

@@ -20,17 +20,15 @@ class RigError(ValueError):
 
 
 def unit_up(up) -> np.ndarray:
-    """``up`` as a (3,) float64 unit vector; RigError for a wrong shape, NaN or zero length."""
+    """``up`` as a (3,) float64 unit vector; RigError for a wrong shape, NaN or zero length
+    (the one up-vector rule, :func:`turnabout.views.levels.unit_up`)."""
+    from .levels import LevelPointError
+    from .levels import unit_up as _unit_up
+
     try:
-        v = np.asarray(up, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise RigError(f"up: must be three numbers, got {up!r}") from None
-    if v.shape != (3,) or not np.all(np.isfinite(v)):
-        raise RigError(f"up: must be three finite numbers, got {up!r}")
-    n = float(np.linalg.norm(v))
-    if n < 1e-12:
-        raise RigError(f"up: must be a non-zero direction such as (0, 0, 1), got {up!r}")
-    return v / n
+        return _unit_up(up)
+    except LevelPointError as exc:
+        raise RigError(str(exc)) from None
 
 
 def positive(name: str, value, upper: float | None = None) -> float:
