@@ -123,27 +123,36 @@ def test_a_process_pool_gives_the_serial_bytes(serial, tmp_path):
     assert (table_csv(res), table_json(res)) == serial
 
 
-def test_a_dask_cluster_gives_the_serial_bytes_even_when_a_worker_dies(serial, tmp_path):
+@pytest.fixture(scope="module")
+def dask_client():
+    """A Dask LocalCluster of 2 single-threaded worker processes, shared by the module."""
     distributed = _needs_dask()
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None, silence_logs=40) as cluster, \
             distributed.Client(cluster) as client:  # fmt: skip
-        res = run_sweep(_points(), SPEC, tmp_path / "whole", client=client)
-        assert (table_csv(res), table_json(res)) == serial
+        yield client
 
-        pids = client.run(os.getpid)  # worker address -> process id
-        killed = []
 
-        def kill_one_worker(key):
-            if not killed:  # after the first result, while the other points are running
-                victim = sorted(pids)[0]
-                os.kill(pids[victim], signal.SIGKILL)
-                killed.append(victim)
+def test_a_dask_cluster_gives_the_serial_bytes_even_when_a_worker_dies(
+    serial, tmp_path, dask_client
+):
+    client = dask_client
+    res = run_sweep(_points(), SPEC, tmp_path / "whole", client=client)
+    assert (table_csv(res), table_json(res)) == serial
 
-        res = run_sweep(_points(), SPEC, tmp_path / "killed", client=client, retries=3,
-                        on_result=kill_one_worker)  # fmt: skip
-        assert killed and len(res.computed) == 8
-        assert (table_csv(res), table_json(res)) == serial
+    pids = client.run(os.getpid)  # worker address -> process id
+    killed = []
+
+    def kill_one_worker(key):
+        if not killed:  # after the first result, while the other points are running
+            victim = sorted(pids)[0]
+            os.kill(pids[victim], signal.SIGKILL)
+            killed.append(victim)
+
+    res = run_sweep(_points(), SPEC, tmp_path / "killed", client=client, retries=3,
+                    on_result=kill_one_worker)  # fmt: skip
+    assert killed and len(res.computed) == 8
+    assert (table_csv(res), table_json(res)) == serial
 
 
 def test_an_interrupted_sweep_resumes_with_only_the_missing_points(serial, tmp_path):
@@ -167,6 +176,21 @@ def test_an_interrupted_sweep_resumes_with_only_the_missing_points(serial, tmp_p
     res = run_sweep(_points(), SPEC, tmp_path, workers=1)
     assert res.computed == [seen[0]]
     assert (table_csv(res), table_json(res)) == serial
+
+
+def test_check_on_a_dask_cluster_gives_the_local_report(tmp_path, dask_client):
+    from turnabout.check import check_animation
+    from turnabout.eversion import evaluate
+    from turnabout.mesh import uniform_sphere_mesh
+
+    c = Controls(strips=8)
+    mesh = uniform_sphere_mesh(64, 16)
+    P = evaluate(c, np.linspace(0.0, 1.0, 12), mesh)
+    local = check_animation(P, mesh.triangles())
+    remote = check_animation(P, mesh.triangles(), client=dask_client)
+    local.write_json(tmp_path / "local.json")
+    remote.write_json(tmp_path / "remote.json")
+    assert (tmp_path / "local.json").read_bytes() == (tmp_path / "remote.json").read_bytes()
 
 
 # --- the command ---------------------------------------------------------------------------

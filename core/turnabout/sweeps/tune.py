@@ -3,7 +3,8 @@
 For one strip count (the other controls fixed), :func:`tune_depth` sweeps ``coarse`` depths
 evenly over :func:`~turnabout.eversion.depth_range`, keeps the regular point (ratio at least
 the floor) with the smallest peak curvature x radius, and sweeps again between that
-point's neighbours, ``rounds`` times. Every round is an ordinary sweep in the same folder,
+point's neighbours, ``rounds`` times (not when the best is an end of the allowed range:
+the search stops there and reports that end). Every round is an ordinary sweep in the same folder,
 so repeated depths are read back, not scanned again, and an interrupted tune resumes.
 """
 
@@ -64,6 +65,8 @@ def tune_depth(
             tried[c.wave_depth] = f
         best = _best(tried)
         if best is None:
+            break
+        if best in (lo, hi):  # the optimum is the allowed range's end: nothing to refine
             break
         ds = sorted(tried)
         k = ds.index(best)
