@@ -305,3 +305,9 @@ def test_tune_keeps_the_regular_depth_of_least_curvature_and_reuses_its_points(t
     capsys.readouterr()
     assert main(argv) == 0  # again: every point is on disk
     assert "0 computed" in capsys.readouterr().out
+
+
+def test_check_refuses_a_bad_scheduler_before_reading_the_animation(tmp_path, capsys):
+    assert main(["check", str(tmp_path / "absent.npz"), "--scheduler", "no such place"]) == 2
+    err = capsys.readouterr().err
+    assert "--scheduler" in err and "absent.npz" not in err
