@@ -25,8 +25,13 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--points", type=int, default=8, help="depths of the 8-strip sweep")
     ap.add_argument("--repeat", type=int, default=3, help="runs of each; the fastest counts")
-    ap.add_argument("--grid", type=int, nargs=3, default=(24, 91, 40),
-                    help="scan grid per point (default 24 91 40; quick scan: %s)" % (QUICK_GRID,))
+    ap.add_argument(
+        "--grid",
+        type=int,
+        nargs=3,
+        default=(24, 91, 40),
+        help=f"scan grid per point (default 24 91 40; quick scan: {QUICK_GRID})",
+    )
     a = ap.parse_args()
     spec = scan_spec("quick", tuple(a.grid))
     pts = grid_points([8], [round(0.13 + 0.03 * i / (a.points - 1), 6)
@@ -54,7 +59,8 @@ def main() -> None:
         from distributed import Client, LocalCluster
 
         with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                          dashboard_address=None, silence_logs=40) as cl, Client(cl) as client:
+                          dashboard_address="127.0.0.1:0", silence_logs=40) as cl, \
+                Client(cl) as client:  # fmt: skip
             client.submit(abs, 1).result()  # workers up before the clock starts
             runs["dask LocalCluster, 2 workers"] = timed(client=client)
     except ImportError:

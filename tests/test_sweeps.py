@@ -16,7 +16,6 @@ import sys
 
 import numpy as np
 import pytest
-
 from turnabout.cli import main
 from turnabout.eversion import Controls
 from turnabout.eversion.regularity import MIN_RATIO, scan
@@ -128,7 +127,7 @@ def dask_client():
     """A Dask LocalCluster of 2 single-threaded worker processes, shared by the module."""
     distributed = _needs_dask()
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None, silence_logs=40) as cluster, \
+                                  dashboard_address="127.0.0.1:0", silence_logs=40) as cluster, \
             distributed.Client(cluster) as client:  # fmt: skip
         yield client
 
@@ -276,8 +275,9 @@ def test_a_table_with_a_bad_row_is_refused_naming_the_row(tmp_path, capsys):
     assert not (tmp_path / "r").exists()
 
 
-def test_without_dask_a_cluster_run_is_refused_with_the_extra_to_install(tmp_path, capsys,
-                                                                         monkeypatch):
+def test_without_dask_a_cluster_run_is_refused_with_the_extra_to_install(
+    tmp_path, capsys, monkeypatch
+):
     monkeypatch.setitem(sys.modules, "distributed", None)  # as if dask were not installed
     assert main(["sweep", *GRID_ARGS, "--out", str(tmp_path / "r"), "--scheduler",
                  "local:2"]) == 2  # fmt: skip
@@ -289,8 +289,7 @@ def test_without_dask_a_cluster_run_is_refused_with_the_extra_to_install(tmp_pat
 # --- tune ----------------------------------------------------------------------------------
 
 
-def test_tune_keeps_the_regular_depth_of_least_curvature_and_reuses_its_points(tmp_path,
-                                                                             capsys):
+def test_tune_keeps_the_regular_depth_of_least_curvature_and_reuses_its_points(tmp_path, capsys):
     out = tmp_path / "t"
     argv = ["tune", "--strips", "8", "--coarse", "3", "--rounds", "1", *GRID_ARGS,
             "--out", str(out), "--workers", "2"]  # fmt: skip

@@ -88,7 +88,7 @@ def dask_client(address: str, option: str = "--scheduler"):
     if kind == "local":
         with LocalCluster(
             n_workers=int(value), threads_per_worker=1, processes=True,
-            dashboard_address=None, silence_logs=40,
+            dashboard_address="127.0.0.1:0", silence_logs=40,
         ) as cluster, Client(cluster) as client:  # fmt: skip
             yield client
     else:
@@ -100,9 +100,7 @@ def dask_client(address: str, option: str = "--scheduler"):
             yield client
 
 
-def run_local(
-    fn: Callable, items: Sequence[tuple], workers: int
-) -> Iterator[tuple[int, object]]:
+def run_local(fn: Callable, items: Sequence[tuple], workers: int) -> Iterator[tuple[int, object]]:
     """Yield (index, fn(*items[index])) on ``workers`` processes (1: in this process)."""
     if workers == 1 or len(items) <= 1:
         for i, args in enumerate(items):

@@ -51,7 +51,9 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
         "scheduler, or local:N to start N worker processes here (needs the 'sweep' extra)",
     )  # fmt: skip
     g.add_argument(
-        "--retries", type=int, default=3,
+        "--retries",
+        type=int,
+        default=3,
         help="times a Dask task is run again after its worker fails, 0-10 (default 3)",
     )
     g.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
@@ -120,7 +122,10 @@ def _add_tune(sub, name: str) -> argparse.ArgumentParser:
     p.add_argument("--rounds", type=int, default=2,
                    help="refining rounds after the coarse one, 0-10 (default 2)")  # fmt: skip
     p.add_argument(
-        "--tuned", type=Path, default=None, metavar="FILE.json",
+        "--tuned",
+        type=Path,
+        default=None,
+        metavar="FILE.json",
         help="the tuned table to write (default OUT/tuned.json)",
     )
     _run_options(p, "tune-results")
@@ -128,8 +133,9 @@ def _add_tune(sub, name: str) -> argparse.ArgumentParser:
     return p
 
 
-def _check_run_options(args, spec_only: bool = False):
-    """(spec, runner kwargs factory inputs); raises SweepInputError / OutputError / SchedulerError."""
+def _check_run_options(args) -> G.ScanSpec:
+    """The scan, every run option checked; raises SweepInputError, OutputError or
+    SchedulerError naming the option."""
     spec = G.scan_spec(args.scan, args.scan_grid)
     check_output_folder(args.out, "--out")
     if args.workers is not None:

@@ -26,8 +26,7 @@ def cell_grid(result: SweepResult) -> tuple[list[int], list[float], np.ndarray, 
     curv = np.full_like(ratio, np.nan)
     for r in rows:
         i, j = strips.index(r["strips"]), depths.index(r["depth"])
-        ratio[i, j] = np.fmin(ratio[i, j], r["min_ratio"]) if np.isfinite(ratio[i, j]) else (
-            r["min_ratio"])  # fmt: skip
+        ratio[i, j] = np.fmin(ratio[i, j], r["min_ratio"])  # fmin/fmax skip the NaN
         curv[i, j] = np.fmax(curv[i, j], r["max_curvature"])
     return strips, depths, ratio, curv
 
@@ -65,8 +64,16 @@ def write_plots(result: SweepResult, folder: Path) -> tuple[Path, Path]:
     fail = np.isfinite(ratio) & (ratio < MIN_RATIO)
     folder = Path(folder)
     p1, p2 = folder / "regular.png", folder / "curvature.png"
-    _draw(p1, strips, depths, ratio, fail,
-          f"minimum normalised ratio (crossed: below {MIN_RATIO:g})", "ratio", "viridis")
+    _draw(
+        p1,
+        strips,
+        depths,
+        ratio,
+        fail,
+        f"minimum normalised ratio (crossed: below {MIN_RATIO:g})",
+        "ratio",
+        "viridis",
+    )
     _draw(p2, strips, depths, curv, fail,
           "peak principal curvature x radius", "curvature x R", "magma")  # fmt: skip
     return p1, p2

@@ -147,7 +147,9 @@ def run_sweep(
     (folder / "points").mkdir(parents=True, exist_ok=True)
     keys = [point_key(c, spec) for c in points]
     records = [point_record(c, spec) for c in points]
-    figures: list[dict | None] = [read_point(folder, k, r) for k, r in zip(keys, records)]
+    figures: list[dict | None] = [
+        read_point(folder, k, r) for k, r in zip(keys, records, strict=True)
+    ]
     result = SweepResult(spec, keys, records, [])
     todo = [i for i, f in enumerate(figures) if f is None]
     result.reused = [keys[i] for i, f in enumerate(figures) if f is not None]

@@ -85,7 +85,9 @@ def tuned_table(results: list[TuneResult], spec: ScanSpec) -> dict:
         "min_ratio_floor": MIN_RATIO,
         "objective": "smallest peak curvature x radius with min ratio >= floor",
         "strips": {
-            str(r.strips): None if r.depth is None else {
+            str(r.strips): None
+            if r.depth is None
+            else {
                 "depth": r.depth,
                 "min_ratio": r.figures["min_ratio"],
                 "max_curvature": r.figures["max_curvature"],
