@@ -151,6 +151,7 @@ def test_a_dask_cluster_gives_the_serial_bytes_even_when_a_worker_dies(
     res = run_sweep(_points(), SPEC, tmp_path / "killed", client=client, retries=3,
                     on_result=kill_one_worker)  # fmt: skip
     assert killed and len(res.computed) == 8
+    assert killed[0] not in client.scheduler_info()["workers"]  # that worker really died
     assert (table_csv(res), table_json(res)) == serial
 
 
@@ -310,3 +311,9 @@ def test_check_refuses_a_bad_scheduler_before_reading_the_animation(tmp_path, ca
     assert main(["check", str(tmp_path / "absent.npz"), "--scheduler", "no such place"]) == 2
     err = capsys.readouterr().err
     assert "--scheduler" in err and "absent.npz" not in err
+
+
+def test_the_command_runs_on_a_running_scheduler_by_its_address(serial, tmp_path, dask_client):
+    address = dask_client.scheduler.address  # tcp://127.0.0.1:PORT
+    out = _sweep(tmp_path, "remote", "--scheduler", address)
+    assert (out / "sweep.csv").read_bytes() == serial[0]
