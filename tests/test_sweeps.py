@@ -317,3 +317,18 @@ def test_the_command_runs_on_a_running_scheduler_by_its_address(serial, tmp_path
     address = dask_client.scheduler.address  # tcp://127.0.0.1:PORT
     out = _sweep(tmp_path, "remote", "--scheduler", address)
     assert (out / "sweep.csv").read_bytes() == serial[0]
+
+
+def test_tune_over_stage_windows_keeps_the_combination_of_least_curvature(tmp_path):
+    out = tmp_path / "w"
+    argv = ["tune", "--strips", "8", "--coarse", "3", "--rounds", "0", *GRID_ARGS, "--tuck",
+            "0.586,0.97/0.6,0.95", "--out", str(out), "--workers", "1", "--quiet"]  # fmt: skip
+    assert main(argv) == 0
+    best = json.loads((out / "tuned.json").read_text(encoding="utf-8"))["strips"]["8"]
+    rows = [json.loads(p.read_text(encoding="utf-8")) for p in (out / "points").glob("*.json")]
+    assert {tuple(r["point"]["timing"]["tuck"]) for r in rows} == {(0.586, 0.97), (0.6, 0.95)}
+    regular = [r for r in rows if r["figures"]["min_ratio"] >= MIN_RATIO]
+    winner = min(regular, key=lambda r: r["figures"]["max_curvature"])
+    assert (best["depth"], best["timing"]["tuck"]) == (
+        winner["point"]["depth"], winner["point"]["timing"]["tuck"])  # fmt: skip
+    assert best["max_curvature"] == winner["figures"]["max_curvature"]

@@ -107,16 +107,19 @@ def _add_tune(sub, name: str) -> argparse.ArgumentParser:
         help="search the depth with the smallest peak curvature that stays regular",
         description=f"For each strip count, sweep the depth over its allowed range, keep the "
         f"regular point (min ratio >= {MIN_RATIO:g}) with the smallest peak curvature x "
-        "radius, and sweep again between its neighbours (--rounds times). Writes the tuned "
-        "table (JSON). Exit 1 when a strip count has no regular depth.",
+        "radius, and sweep again between its neighbours (--rounds times); with lists of "
+        "stage windows, for each combination, keeping the best. Writes the tuned table "
+        "(JSON). Exit 1 when a strip count has no regular depth.",
     )
     p.add_argument(
         "--strips", default=str(MIN_STRIPS), metavar="LIST",
         help=f"strip counts, integers {MIN_STRIPS}-{MAX_STRIPS} (default {MIN_STRIPS})",
     )  # fmt: skip
     for stage in STAGE_NAMES:
-        p.add_argument(f"--{stage}", default=None, metavar="START,END",
-                       help=f"fixed window of when {STAGE_HELP[stage]}")  # fmt: skip
+        p.add_argument(f"--{stage}", default=None, metavar="START,END[/START,END...]",
+                       help=f"windows of when {STAGE_HELP[stage]} to try; the depth is "
+                       "tuned for each combination and the best kept (default: the "
+                       "default window)")  # fmt: skip
     p.add_argument("--coarse", type=int, default=7,
                    help="depths per round, 3-50 (default 7)")  # fmt: skip
     p.add_argument("--rounds", type=int, default=2,
@@ -153,14 +156,12 @@ def _check_run_options(args) -> G.ScanSpec:
     return spec
 
 
-def _windows(args, single: bool) -> dict:
+def _windows(args) -> dict:
     out = {}
     for s in STAGE_NAMES:
         text = getattr(args, s)
         if text is not None:
             out[s] = G.parse_windows(f"--{s}", text)
-            if single and len(out[s]) != 1:
-                raise G.SweepInputError(f"--{s}: tune takes one window START,END")
     return out
 
 
@@ -195,7 +196,7 @@ def run_sweep_command(args) -> int:
         else:
             strips = G.parse_values("--strips", args.strips or str(MIN_STRIPS), integer=True)
             depths = G.parse_values("--depth", args.depth) if args.depth else None
-            points = G.grid_points(strips, depths, _windows(args, single=False))
+            points = G.grid_points(strips, depths, _windows(args))
         spec = _check_run_options(args)
         if args.plot:
             try:
@@ -230,8 +231,8 @@ def run_sweep_command(args) -> int:
 def run_tune_command(args) -> int:
     try:
         strips = G.parse_values("--strips", args.strips, integer=True)
-        windows = {s: w[0] for s, w in _windows(args, single=True).items()}
-        G.grid_points(strips, None, {s: [w] for s, w in windows.items()})  # validates
+        windows = _windows(args)
+        G.grid_points(strips, None, windows)  # validates every combination
         if not 3 <= args.coarse <= 50:
             raise G.SweepInputError(f"--coarse: must be from 3 to 50, got {args.coarse}")
         if not 0 <= args.rounds <= 10:
@@ -243,13 +244,11 @@ def run_tune_command(args) -> int:
     except (G.SweepInputError, OutputError, cluster.SchedulerError) as exc:
         print(f"turnabout tune: {exc}", file=sys.stderr)
         return 2
-    from ..eversion.controls import Controls
-    from ..sweeps.tune import tune_depth, tuned_table
+    from ..sweeps.tune import tune_windows, tuned_table
 
     def work(opts):
-        timing = {**Controls().timing, **windows}
-        results = [tune_depth(n, spec, args.out, coarse=args.coarse, rounds=args.rounds,
-                              timing=timing, **opts) for n in strips]  # fmt: skip
+        results = [tune_windows(n, spec, args.out, windows, coarse=args.coarse,
+                                rounds=args.rounds, **opts) for n in strips]  # fmt: skip
         args.out.mkdir(exist_ok=True)
         data = json.dumps(tuned_table(results, spec), indent=1, sort_keys=True) + "\n"
         atomic_write_bytes(tuned, data.encode())

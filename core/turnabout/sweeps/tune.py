@@ -4,12 +4,15 @@ For one strip count (the other controls fixed), :func:`tune_depth` sweeps ``coar
 evenly over :func:`~turnabout.eversion.depth_range`, keeps the regular point (ratio at least
 the floor) with the smallest peak curvature x radius, and sweeps again between that
 point's neighbours, ``rounds`` times (not when the best is an end of the allowed range:
-the search stops there and reports that end). Every round is an ordinary sweep in the same folder,
-so repeated depths are read back, not scanned again, and an interrupted tune resumes.
+the search stops there and reports that end). :func:`tune_windows` runs it for every
+combination of given stage windows and keeps the best. Every round is an ordinary sweep in
+the same folder, so repeated depths are read back, not scanned again, and an interrupted
+tune resumes.
 """
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -33,6 +36,7 @@ class TuneResult:
     figures: dict | None
     tried: list[tuple[float, float, float]]
     computed: int  # points scanned in this run (the rest were on disk)
+    timing: dict | None = None  # the stage windows of the result
 
 
 def _best(tried: dict[float, dict]) -> float | None:
@@ -75,7 +79,36 @@ def tune_depth(
             break
     best = _best(tried)
     rows = [(d, tried[d]["min_ratio"], tried[d]["max_curvature"]) for d in sorted(tried)]
-    return TuneResult(strips, best, tried.get(best) if best is not None else None, rows, computed)
+    return TuneResult(strips, best, tried.get(best) if best is not None else None, rows, computed,
+                      dict(base.timing))  # fmt: skip
+
+
+def tune_windows(
+    strips: int,
+    spec: ScanSpec,
+    folder: Path,
+    windows: dict[str, list[tuple[float, float]]],
+    **options,
+) -> TuneResult:
+    """:func:`tune_depth` for every combination of the given stage windows (the others at
+    their defaults); the result with the smallest peak curvature wins (ties: the first in
+    the order given). ``tried`` and ``computed`` add up over every combination."""
+    names = [s for s in windows if windows[s]]
+    best: TuneResult | None = None
+    tried, computed = [], 0
+    for combo in itertools.product(*(windows[s] for s in names)):
+        timing = {**Controls().timing, **dict(zip(names, combo, strict=True))}
+        r = tune_depth(strips, spec, folder, timing=timing, **options)
+        tried += r.tried
+        computed += r.computed
+        if r.depth is not None and (
+            best is None or r.figures["max_curvature"] < best.figures["max_curvature"]
+        ):
+            best = r
+    if best is None:
+        return TuneResult(strips, None, None, tried, computed, None)
+    best.tried, best.computed = tried, computed
+    return best
 
 
 def tuned_table(results: list[TuneResult], spec: ScanSpec) -> dict:
@@ -92,6 +125,7 @@ def tuned_table(results: list[TuneResult], spec: ScanSpec) -> dict:
                 "min_ratio": r.figures["min_ratio"],
                 "max_curvature": r.figures["max_curvature"],
                 "points_tried": len(r.tried),
+                "timing": {k: list(v) for k, v in r.timing.items()},
             }
             for r in results
         },
