@@ -3,7 +3,7 @@
 Reads in order: grid (the points and their keys) -> run (one scan per point, on a local
 pool or a Dask cluster; the results folder) -> plot (PNG maps over strips x depth) -> tune
 (the depth with the smallest peak curvature that stays regular). Depends on eversion/ and
-the shared output and cluster helpers; nothing below depends on it.
+the shared output and cluster modules; nothing below depends on it.
 """
 
 from .grid import (
