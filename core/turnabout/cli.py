@@ -12,6 +12,8 @@ COMMAND_MODULES: tuple[tuple[str, str], ...] = (
     ("build", "turnabout.commands.build"),
     ("check", "turnabout.commands.check"),
     ("curve", "turnabout.commands.curve"),
+    ("sweep", "turnabout.commands.sweep"),
+    ("tune", "turnabout.commands.sweep"),
     # Blender-side commands: imported only when asked for.
     ("scene", "turnabout_blender.commands"),
     ("render", "turnabout_blender.commands"),

@@ -249,8 +249,27 @@ def _worker_range(start: int, stop: int):
     return _judge_range(_WORKER_JOB[0], start, stop)
 
 
-def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn):
+def _run_frames_dask(job: _FrameJob, client, retries: int, progress: ProgressFn):
+    """Chunks of frames as Dask tasks (the job sent once to every worker), each with retries."""
+    from ..cluster import run_dask
+
     n = job.P.shape[0]
+    chunk = max(2, -(-n // (4 * max(1, len(client.nthreads())))))
+    bounds = [(s, min(s + chunk, n)) for s in range(0, n, chunk)]
+    shared = client.scatter(job, broadcast=True)
+    results, done = {}, 0
+    for i, res in run_dask(client, _judge_range, [(shared, a, b) for a, b in bounds], retries):
+        results[bounds[i][0]] = res
+        done += len(res[0])
+        progress(done, n)
+    return results
+
+
+def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn, client=None, retries=3):
+    n = job.P.shape[0]
+    if client is not None:
+        results = _run_frames_dask(job, client, retries, progress)
+        return _joined(results)
     if isinstance(workers, bool) or not isinstance(workers, int | np.integer) or workers < 1:
         raise CheckInputError(f"workers must be an integer >= 1, got {workers!r}")
     if workers == 1 or n < 4 or "fork" not in mp.get_all_start_methods():
@@ -273,6 +292,10 @@ def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn):
         except BaseException:
             pool.shutdown(wait=True, cancel_futures=True)
             raise
+    return _joined(results)
+
+
+def _joined(results: dict[int, tuple]):
     frames: list[FrameReport] = []
     inters: dict[int, IntersectionResult] = {}
     for start in sorted(results):
@@ -325,6 +348,8 @@ def check_animation(
     level_counts=None,
     level_up=None,
     quadruple: bool = False,
+    client=None,
+    retries: int = 3,
 ) -> AnimationReport:
     """Judge every frame of an animation of a fixed mesh.
 
@@ -341,6 +366,8 @@ def check_animation(
     level points' signed count and the numbers of domes, bowls and saddles (see
     turnabout.views.levels), called once on closed orientable manifolds (faces oriented);
     level_up : the unit up direction it used, recorded in the report.
+    client : a dask.distributed Client: chunks of frames run as tasks on its workers (each
+    with ``retries``), with the same report as a local run; ``workers`` is then unused.
     """
     th = Thresholds() if thresholds is None else thresholds
     if not isinstance(th, Thresholds):
@@ -387,7 +414,7 @@ def check_animation(
     ref = reference_frame(P[0], topo)
     job = _FrameJob(P, topo, ref, th, chi, closed_manifold, orientable, intersections,
                     use_mathutils, times)  # fmt: skip
-    frames, inter_results = _run_frames(job, workers, progress)
+    frames, inter_results = _run_frames(job, workers, progress, client, retries)
     counts = None
     if level_counts is not None and closed_manifold and orientable:
         counts = level_counts(P, topo.faces)  # None when it cannot count

@@ -7,11 +7,13 @@ options or an output that cannot be written, 130 cancelled.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import re
 import sys
 from dataclasses import fields
 from pathlib import Path
 
+from .. import cluster
 from ..progress import Cancelled, ProgressBar
 
 # (option, Thresholds field, help)
@@ -79,6 +81,12 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     p.add_argument(
         "--workers", type=int, default=1,
         help="processes judging frames in parallel, >= 1 (default 1)",
+    )  # fmt: skip
+    p.add_argument(
+        "--scheduler", default=None, metavar="ADDRESS",
+        help="judge chunks of frames on a Dask cluster instead: HOST:PORT or tcp://HOST:PORT "
+        "of a running scheduler, or local:N to start N worker processes here (needs the "
+        "'sweep' extra); the report is the same as a local run's",
     )  # fmt: skip
     p.add_argument(
         "--up", default="0,0,1", metavar="X,Y,Z",
@@ -178,7 +186,10 @@ def run(args: argparse.Namespace) -> int:
         return _error(f"--workers: must be 1 or more, got {args.workers}")
     try:
         _check_outputs(args)
-    except OutputError as exc:
+        if args.scheduler is not None:
+            cluster.parse_scheduler(args.scheduler)
+            cluster.require_dask()
+    except (OutputError, cluster.SchedulerError) as exc:
         return _error(str(exc))
     try:
         seq = read_sequence(args.path, weld=args.weld)
@@ -187,19 +198,25 @@ def run(args: argparse.Namespace) -> int:
     except OSError as exc:
         return _error(f"{args.path}: cannot read ({exc})")
     bar = ProgressBar("checking frames", seq.n_frames, enabled=not args.quiet)
+    dask = cluster.dask_client(args.scheduler) if args.scheduler else contextlib.nullcontext()
     try:
-        report = check_animation(
-            seq.positions,
-            seq.triangles(),
-            thresholds=thresholds,
-            times=seq.times,
-            progress=bar,
-            intersections=not args.no_intersections,
-            workers=args.workers,
-            level_counts=_level_counts(up),
-            level_up=up,
-            quadruple=args.quadruple_points,
-        )
+        with dask as client:
+            report = check_animation(
+                seq.positions,
+                seq.triangles(),
+                thresholds=thresholds,
+                times=seq.times,
+                progress=bar,
+                intersections=not args.no_intersections,
+                workers=args.workers,
+                level_counts=_level_counts(up),
+                level_up=up,
+                quadruple=args.quadruple_points,
+                client=client,
+            )
+    except cluster.SchedulerError as exc:
+        bar.close()
+        return _error(str(exc))
     except CheckInputError as exc:
         bar.close()
         return _error(f"{args.path}: {exc}")
