@@ -32,6 +32,8 @@ METRIC_PREFIX = "turnabout_"
 HEAT_ATTRIBUTE = "turnabout_heat"
 CURVE_SUFFIX = " double curves"
 METRICS_ACTION_SUFFIX = " check metrics"
+# the check counts level points with Blender's +Z as up
+LEVEL_UP = (0.0, 0.0, 1.0)
 
 
 class CheckError(ValueError):
@@ -196,6 +198,7 @@ def _run_checker(
     """Thread body: run the core checker, recording progress and the result in ``state``."""
     from turnabout.check import Thresholds, check_animation
     from turnabout.progress import Cancelled
+    from turnabout.views.levels import level_count_table
 
     def progress(done, total):
         state["done"], state["total"] = done, total
@@ -212,6 +215,8 @@ def _run_checker(
             intersections=intersections,
             workers=workers,
             quadruple=quadruple and intersections,
+            level_counts=level_count_table(LEVEL_UP),
+            level_up=LEVEL_UP,
         )
     except BaseException as exc:  # handed back to the generator
         state["error"] = exc

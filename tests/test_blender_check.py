@@ -200,9 +200,14 @@ def test_the_check_reports_the_bakes_frame_times(tmp_path):
         "FINISHED"
     }
     (path,) = out.glob("*_check.json")
-    times = [f["time"] for f in json.loads(path.read_text())["frames"]]
+    data = json.loads(path.read_text())
+    times = [f["time"] for f in data["frames"]]
     assert times[:6] == pytest.approx([0.0, 0.2, 0.4, 0.6, 0.8, 1.0])
     assert times[6] is None
+    # the level points' signed count is the Gauss-map degree, 1 in every frame of a sphere
+    # eversion (H. Hopf, "Über die Curvatura integra geschlossener Hyperflächen", 1926)
+    assert data["level_up"] == [0.0, 0.0, 1.0]
+    assert [f["level_signed_count"] for f in data["frames"]] == [1] * 7
 
 
 @needs_checker

@@ -148,27 +148,11 @@ def _parse_up(text: str) -> tuple[float, float, float] | str:
         return str(exc)
 
 
-def _level_counts(up):
-    """(positions (F, V, 3), faces) -> (F, 4) int64 signed count, domes, bowls, saddles."""
-
-    def count(positions, faces):
-        import numpy as np
-
-        from ..views.levels import LevelPointError, level_points
-
-        try:
-            lp = level_points(positions, faces, up)
-        except LevelPointError:
-            return None  # the report's level fields stay null
-        return np.column_stack([lp.signed_count, lp.kind_counts()])
-
-    return count
-
-
 def run(args: argparse.Namespace) -> int:
     from ..check import CheckInputError, ThresholdError, Thresholds, check_animation
     from ..meshseq import MeshSequenceError, read_sequence
     from ..output import STDOUT, OutputError
+    from ..views.levels import level_count_table
 
     up = _parse_up(args.up)
     if isinstance(up, str):
@@ -209,7 +193,7 @@ def run(args: argparse.Namespace) -> int:
                 progress=bar,
                 intersections=not args.no_intersections,
                 workers=args.workers,
-                level_counts=_level_counts(up),
+                level_counts=level_count_table(up),
                 level_up=up,
                 quadruple=args.quadruple_points,
                 client=client,

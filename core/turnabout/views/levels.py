@@ -354,3 +354,22 @@ def level_points(
 def level_topology(faces, n_vertices: int) -> LevelTopology:
     """Validated :class:`LevelTopology` of (M, 3) faces over n_vertices vertices."""
     return LevelTopology(faces, n_vertices)
+
+
+def level_count_table(up=(0.0, 0.0, 1.0)):
+    """A ``level_counts`` function for :func:`turnabout.check.check_animation`.
+
+    It maps (positions (F, V, 3), faces (M, 3)) to an (F, 4) int64 table: signed count,
+    domes, bowls, saddles per frame, or None where the mesh has no level points to count
+    (open, non-manifold or inconsistently oriented), so the report's level fields stay null.
+    """
+    u = unit_up(up)
+
+    def count(positions, faces):
+        try:
+            lp = level_points(positions, faces, u)
+        except LevelPointError:
+            return None
+        return np.column_stack([lp.signed_count, lp.kind_counts()])
+
+    return count
