@@ -371,17 +371,12 @@ def remove_band_rig(scene, ob) -> int:
 
 def _render_to_pixels(scene, camera, path: str) -> np.ndarray:
     """Render ``camera`` into ``path`` and return (H, W, 4) float32 pixels, bottom row first."""
+    from .headless import read_png
+
     scene.camera = camera
     scene.render.filepath = path
     bpy.ops.render.render(write_still=True, scene=scene.name)
-    img = bpy.data.images.load(path, check_existing=False)
-    try:
-        w, h = img.size
-        px = np.empty(w * h * 4, np.float32)
-        img.pixels.foreach_get(px)
-    finally:
-        bpy.data.images.remove(img)
-    return px.reshape(h, w, 4)
+    return read_png(path)[::-1]
 
 
 def render_side_by_side(scene, out_path: str, frame: int, ob=None, cameras=None) -> str:
@@ -563,36 +558,15 @@ def add_band_rig_for(
     start, n_frames = baked_frames(ob)
     up = rig_math.unit_up(up)
     tris = baked_triangles(ob)
-    from .bake import PROP_TAG
+    from .view_objects import eversion_info, sphere_of
 
-    n_lon, n_lat = json.loads(ob[PROP_TAG])["mesh"]
-    mesh = _baked_mesh(ob, int(n_lon), int(n_lat))
+    mesh = sphere_of(ob, eversion_info(ob))
     bands = slices.latitude_bands(count, width)
     vertex_ids = slices.band_vertices(mesh, bands, which)
     faces = slices.band_faces(mesh, bands, which)
     pos = baked_positions(scene, ob, vertex_ids, progress)
     track = slices.band_track(pos, np.arange(len(vertex_ids)), up)
     return add_band_rig(scene, ob, track, start, faces, triangles=tris, **options)
-
-
-def _baked_mesh(ob, n_lon: int, n_lat: int):
-    """The SphereMesh of a bake, its longitudes and latitudes read back from the UV map
-    (u = theta / 2 pi, v = (lat + pi / 2) / pi), since a band is picked by latitude."""
-    from turnabout.mesh import SphereMesh
-
-    me = ob.data
-    layer = me.uv_layers.get("UVMap")
-    if layer is None or len(me.vertices) != n_lon * n_lat + 2:
-        raise RigError(f"object: {ob.name!r} does not match its build settings; re-build it")
-    uv = np.empty(len(me.loops) * 2, np.float32)
-    layer.data.foreach_get("uv", uv)
-    vi = np.empty(len(me.loops), np.int32)
-    me.loops.foreach_get("vertex_index", vi)
-    per_vertex = np.zeros((len(me.vertices), 2), np.float64)
-    per_vertex[vi] = uv.reshape(-1, 2)
-    theta = per_vertex[1 : 1 + n_lon, 0] * 2 * np.pi
-    lat = per_vertex[1 + n_lon * np.arange(n_lat), 1] * np.pi - np.pi / 2
-    return SphereMesh(theta=theta, lat=lat)
 
 
 def add_level_markers_for(scene, ob, up=(0.0, 0.0, 1.0), progress=None, **options):

@@ -55,10 +55,9 @@ def _project(scene, cam, points):
 def _band_vertices(ob, which=5, count=8):
     from turnabout.views import slices
 
-    from turnabout_blender import view_rigs
+    from turnabout_blender.view_objects import eversion_info, sphere_of
 
-    n_lon, n_lat = json.loads(ob["turnabout"])["mesh"]
-    mesh = view_rigs._baked_mesh(ob, n_lon, n_lat)
+    mesh = sphere_of(ob, eversion_info(ob))
     return slices.band_vertices(mesh, slices.latitude_bands(count), which)
 
 
