@@ -7,13 +7,12 @@ import sys
 from pathlib import Path
 
 from ..eversion import ControlError, build, default_mesh
-from ..eversion.regularity import QUICK_GRID
+from ..eversion.regularity import QUICK_GRID, scan_grid_problem
 from ..output import OutputError, check_output_file, check_output_folder, check_suffix
 from ..progress import Cancelled, ProgressBar
 from .controls_options import add_control_options, control_error_text, read_controls
 
 FORMATS = ("npz", "obj", "ply")
-MAX_SCAN_POINTS = 10**8  # theta x lat per time of --scan-only: about 2.4 GB of float64 arrays
 
 
 def add_parser(sub, name: str) -> argparse.ArgumentParser:
@@ -91,16 +90,9 @@ def _output(args) -> tuple[str, Path]:
 
 
 def _check_scan_grid(grid) -> None:
-    nt, nl, ns = grid
-    if nt < 4 or nl < 3 or ns < 2:
-        raise OutputError(
-            f"--scan-grid {nt} {nl} {ns}: needs at least 4 longitudes, 3 latitudes (poles "
-            "included) and 2 times"
-        )
-    if nt * nl > MAX_SCAN_POINTS:
-        raise OutputError(
-            f"--scan-grid {nt} {nl} {ns}: {nt * nl} points per time; at most {MAX_SCAN_POINTS}"
-        )
+    problem = scan_grid_problem(*grid)
+    if problem:
+        raise OutputError(problem)
 
 
 def run(args) -> int:

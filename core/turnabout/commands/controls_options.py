@@ -44,9 +44,7 @@ from ..eversion.spacing import (
     MIN_LAT_RINGS,
     MIN_SAMPLES_PER_WAVE,
     SPACINGS,
-    check_lat,
-    check_lon,
-    check_resolution,
+    check_mesh_request,
 )
 
 # The panel's label of each control (addon/props.py uses these): the option's own word.
@@ -187,16 +185,8 @@ def read_controls(args: argparse.Namespace) -> ControlChoice:
     frames = args.frames
     if frames is not None and frames < 2:
         raise ControlError("frames", f"must be an integer >= 2, got {frames}")
-    if args.spacing not in SPACINGS:
-        raise ControlError("spacing", f"must be one of {', '.join(SPACINGS)}, got {args.spacing!r}")
-    lon, lat = args.lon, args.lat
-    if lon is not None and lat is not None:
-        check_resolution(controls, lon, lat)
-    elif lon is not None:
-        check_lon(controls, lon)
-    elif lat is not None:
-        check_lat(controls, lat)
-    return ControlChoice(controls, frames, args.spacing, lon, lat)
+    check_mesh_request(controls, args.spacing, args.lon, args.lat)
+    return ControlChoice(controls, frames, args.spacing, args.lon, args.lat)
 
 
 def option_name(control: str) -> str:

@@ -148,6 +148,25 @@ def _pole_ratio(controls, t, h=1e-4):
     return min(out)
 
 
+# theta x lat per time of a scan: about 2.4 GB of float64 arrays at the limit
+MAX_SCAN_POINTS = 10**8
+
+
+def scan_grid_problem(n_theta: int, n_lat: int, n_times: int) -> str | None:
+    """What is wrong with a scan grid (``--scan-grid THETA LAT TIMES``), or None if usable."""
+    if n_theta < 4 or n_lat < 3 or n_times < 2:
+        return (
+            f"--scan-grid {n_theta} {n_lat} {n_times}: needs at least 4 longitudes, "
+            "3 latitudes (poles included) and 2 times"
+        )
+    if n_theta * n_lat > MAX_SCAN_POINTS:
+        return (
+            f"--scan-grid {n_theta} {n_lat} {n_times}: {n_theta * n_lat} points per time; "
+            f"at most {MAX_SCAN_POINTS}"
+        )
+    return None
+
+
 def scan(
     controls: Controls,
     n_theta: int = 720,

@@ -186,6 +186,21 @@ def lat_samples(rep: RegularityReport, rings: int | None) -> np.ndarray:
     return np.concatenate([south_rings, mid, -south_rings[::-1]])
 
 
+def check_mesh_request(
+    controls: Controls, spacing: str, n_lon: int | None, n_lat: int | None
+) -> None:
+    """Refuse a spacing name or asked-for counts before anything is sampled (ControlError);
+    None counts are the defaults, checked once the mesh is made."""
+    if spacing not in SPACINGS:
+        raise ControlError("spacing", f"must be one of {', '.join(SPACINGS)}, got {spacing!r}")
+    if n_lon is not None and n_lat is not None:
+        check_resolution(controls, n_lon, n_lat)
+    elif n_lon is not None:
+        check_lon(controls, n_lon)
+    elif n_lat is not None:
+        check_lat(controls, n_lat)
+
+
 def mesh_for(
     controls: Controls,
     n_lon: int | None = None,
@@ -201,14 +216,7 @@ def mesh_for(
         which it runs if it has not run yet, refusing controls that fail it) or "even"
         (32 per strip x 127 rings by default).
     """
-    if spacing not in SPACINGS:
-        raise ControlError("spacing", f"must be one of {', '.join(SPACINGS)}, got {spacing!r}")
-    if n_lon is not None and n_lat is not None:
-        check_resolution(controls, n_lon, n_lat)
-    elif n_lon is not None:
-        check_lon(controls, n_lon)
-    elif n_lat is not None:
-        check_lat(controls, n_lat)
+    check_mesh_request(controls, spacing, n_lon, n_lat)
     n = controls.strips
     if spacing == "even":
         mesh = uniform_sphere_mesh(n_lon or EVEN_PER_STRIP * n, n_lat or EVEN_RINGS)

@@ -28,13 +28,12 @@ from pathlib import Path
 import numpy as np
 
 from ..eversion.controls import STAGE_NAMES, ControlError, Controls
-from ..eversion.regularity import QUICK_GRID
+from ..eversion.regularity import QUICK_GRID, scan_grid_problem
 
 SCAN_KINDS = ("quick", "full")
 FULL_GRID = (720, 361, 400)  # the full scan of ``turnabout build --scan-only``
 MAX_POINTS = 100_000
 MAX_TABLE_BYTES = 10_000_000
-MAX_SCAN_POINTS = 10**8  # theta x lat per time: about 2.4 GB of float64 arrays
 
 
 class SweepInputError(ValueError):
@@ -64,15 +63,9 @@ def scan_spec(kind: str, grid=None) -> ScanSpec:
     if kind not in SCAN_KINDS:
         raise SweepInputError(f"--scan: must be one of {', '.join(SCAN_KINDS)}, got {kind!r}")
     nt, nl, ns = (QUICK_GRID if kind == "quick" else FULL_GRID) if grid is None else grid
-    if nt < 4 or nl < 3 or ns < 2:
-        raise SweepInputError(
-            f"--scan-grid {nt} {nl} {ns}: needs at least 4 longitudes, 3 latitudes (poles "
-            "included) and 2 times"
-        )
-    if nt * nl > MAX_SCAN_POINTS:
-        raise SweepInputError(
-            f"--scan-grid {nt} {nl} {ns}: {nt * nl} points per time; at most {MAX_SCAN_POINTS}"
-        )
+    problem = scan_grid_problem(nt, nl, ns)
+    if problem:
+        raise SweepInputError(problem)
     return ScanSpec(kind, int(nt), int(nl), int(ns))
 
 
