@@ -56,6 +56,17 @@ def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return c(P[:, 0]), c(P[:, 1]), c(P[:, 2])
 
 
+def _centred(X0: np.ndarray, Y0: np.ndarray, Z0: np.ndarray, topo: MeshTopology):
+    """Coordinates minus the mean of the used vertices: every metric is invariant under the
+    shift, and the rounding is better (and the same however a frame is reached)."""
+    if topo.all_vertices_used:
+        cx, cy, cz = X0.mean(), Y0.mean(), Z0.mean()
+    else:
+        used = topo.used_vertices
+        cx, cy, cz = X0[used].mean(), Y0[used].mean(), Z0[used].mean()
+    return X0 - cx, Y0 - cy, Z0 - cz
+
+
 def crease_neighbours(P0: np.ndarray, topo: MeshTopology) -> np.ndarray:
     """(E, 2) int64: per edge and side, the candidate one row over most parallel to the edge.
 
@@ -132,11 +143,7 @@ def frame_metrics(
     used = topo.used_vertices
     all_used = topo.all_vertices_used
     X0, Y0, Z0 = _components(P)
-    if all_used:
-        cx, cy, cz = X0.mean(), Y0.mean(), Z0.mean()
-    else:
-        cx, cy, cz = X0[used].mean(), Y0[used].mean(), Z0[used].mean()
-    X, Y, Z = X0 - cx, Y0 - cy, Z0 - cz  # centring: invariant results, better rounding
+    X, Y, Z = _centred(X0, Y0, Z0, topo)
     ff = face_frame(X, Y, Z, topo)
     dbl = ff.dbl
     inv = 1.0 / np.maximum(dbl, TINY)
@@ -245,8 +252,8 @@ def frame_metrics(
         dx = X0 - Q[:, 0]
         dy = Y0 - Q[:, 1]
         dz = Z0 - Q[:, 2]
-        if previous_length is None:
-            pff = face_frame(*_components(Q), topo)
+        if previous_length is None:  # exactly as that frame's own metrics computed it
+            pff = face_frame(*_centred(*_components(Q), topo), topo)
             q0, q1, q2 = np.sqrt(pff.l0), np.sqrt(pff.l1), np.sqrt(pff.l2)
             previous_length = np.bincount(
                 idx, np.concatenate([q0 + q2, q1 + q0, q2 + q1]), minlength=n
