@@ -118,3 +118,33 @@ def test_a_pinched_open_surface_has_its_pinch_as_the_only_singular_vertex():
     other[other == apex + len(p)] = apex
     rep = topology_report(np.concatenate([faces[1:], other]), n_vertices=2 * len(p))
     assert rep.nonmanifold_vertices == 1 and rep.boundary_vertices == 6
+
+
+def test_component_labels_match_scipys_connected_components():
+    # reference: scipy.sparse.csgraph.connected_components on random sparse graphs, with
+    # isolated nodes and long chains (the worst case for label propagation)
+    scipy_graph = pytest.importorskip("scipy.sparse.csgraph")
+    from scipy.sparse import coo_matrix
+    from turnabout.check.topology import component_labels
+
+    rng = np.random.default_rng(7)
+    for n, m in ((1, 0), (50, 0), (200, 150), (1000, 900), (3000, 6000)):
+        a = rng.integers(0, n, m)
+        b = rng.integers(0, n, m)
+        if n == 1000:  # one long chain in a shuffled order
+            perm = rng.permutation(n)
+            a, b = perm[:-1], perm[1:]
+        label = component_labels(n, a, b)
+        graph = coo_matrix((np.ones(a.size), (a, b)), shape=(n, n))
+        count, ref = scipy_graph.connected_components(graph, directed=False)
+        assert np.unique(label).size == count
+        # same partition, and each label is the smallest node of its component
+        pairs = np.unique(np.stack([label, ref], axis=1), axis=0)
+        assert pairs.shape[0] == count
+        assert np.array_equal(
+            label,
+            np.minimum.reduceat(
+                np.arange(n)[np.argsort(ref, kind="stable")],
+                np.searchsorted(np.sort(ref), np.arange(count)),
+            )[ref],
+        )

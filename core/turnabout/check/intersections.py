@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .topology import MeshTopology
+from .topology import MeshTopology, component_labels
 
 _TINY = np.finfo(np.float64).tiny
 SWEEP_BITS = 20  # quantisation of x inside a grid cell for the sweep
@@ -557,16 +557,7 @@ def _merge_points(pts: np.ndarray, trip: np.ndarray, scale: np.ndarray):
     a, b = grid_candidate_pairs(pts - r[:, None], pts + r[:, None])
     near = np.linalg.norm(pts[a] - pts[b], axis=1) <= np.maximum(r[a], r[b])
     a, b = a[near], b[near]
-    label = np.arange(n)
-    while True:  # each pass at least halves the longest chain (pointer jumping)
-        low = np.minimum(label[a], label[b])
-        new = label.copy()
-        np.minimum.at(new, a, low)
-        np.minimum.at(new, b, low)
-        new = new[new]
-        if np.array_equal(new, label):
-            break
-        label = new
+    label = component_labels(n, a, b)
     _, group, counts = np.unique(label, return_inverse=True, return_counts=True)
     group = group.ravel()
     centers = np.zeros((counts.size, 3))

@@ -14,7 +14,7 @@ import numpy as np
 
 from .metrics import FrameMetrics
 from .thresholds import METRICS, Thresholds, severity
-from .topology import MeshTopology
+from .topology import MeshTopology, component_labels
 
 
 @dataclass(frozen=True)
@@ -91,18 +91,7 @@ def failing_clusters(
     e = topo.edges
     both = bad[e[:, 0]] & bad[e[:, 1]]
     u, v = e[both, 0], e[both, 1]
-    label = np.arange(topo.n_vertices)
-    # connected components by min-label propagation with pointer jumping
-    for _ in range(100_000):  # converges in a few rounds thanks to the jumping
-        lu, lv = label[u], label[v]
-        m = np.minimum(lu, lv)
-        new = label.copy()
-        np.minimum.at(new, u, m)
-        np.minimum.at(new, v, m)
-        new = new[new]
-        if np.array_equal(new, label):
-            break
-        label = new
+    label = component_labels(topo.n_vertices, u, v)
     groups, inverse = np.unique(label[idx], return_inverse=True)
     inverse = inverse.ravel()
     P = np.asarray(positions, np.float64)

@@ -12,6 +12,25 @@ from functools import cached_property
 import numpy as np
 
 
+def component_labels(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Connected components of the graph on nodes 0..n-1 with edges (a[i], b[i]).
+
+    Returns (n,) int64: each node's label is the smallest node of its component. Minimum
+    labels spread along the edges with pointer jumping (label = label[label]), so each round
+    at least halves the longest chain: a few dozen rounds, each linear in n + len(a).
+    """
+    label = np.arange(n)
+    while True:
+        low = np.minimum(label[a], label[b])
+        new = label.copy()
+        np.minimum.at(new, a, low)
+        np.minimum.at(new, b, low)
+        new = new[new]
+        if np.array_equal(new, label):
+            return label
+        label = new
+
+
 class TopologyError(ValueError):
     """Faces that cannot be checked (wrong shape, indices out of range)."""
 
@@ -296,16 +315,7 @@ class MeshTopology:
         eb = fe[:, [2, 0, 1]].T.ravel()  # edge (corner k+2, corner k)
         na = 2 * ea + (ev[ea, 0] != v)  # link node: (edge, which end is v)
         nb = 2 * eb + (ev[eb, 0] != v)
-        label = np.arange(2 * self.n_edges)
-        for _ in range(10_000):  # pointer jumping: a few dozen rounds at most
-            m = np.minimum(label[na], label[nb])
-            new = label.copy()
-            np.minimum.at(new, na, m)
-            np.minimum.at(new, nb, m)
-            new = new[new]
-            if np.array_equal(new, label):
-                break
-            label = new
+        label = component_labels(2 * self.n_edges, na, nb)
         node_vertex = ev.ravel()  # node 2e + s sits at vertex edges[e, s]
         pieces = np.unique(node_vertex * (2 * self.n_edges) + label)
         counts = np.bincount(pieces // (2 * self.n_edges), minlength=self.n_vertices)
