@@ -25,19 +25,11 @@ import tempfile
 import time
 
 import numpy as np
+from timing import best_of
 from turnabout import surfaces
 from turnabout.check import check_animation, self_intersections
 from turnabout.check.topology import MeshTopology
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
-
-
-def best_of(fn, repeat: int) -> float:
-    best = np.inf
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t)
-    return best
 
 
 def wobbling_sphere(frames: int) -> tuple[np.ndarray, np.ndarray]:

@@ -9,9 +9,8 @@ arithmetic any angle-interpolation homotopy must do.
 
 from __future__ import annotations
 
-import time
-
 import numpy as np
+from timing import best_of
 from turnabout.curves import marks_per_frame, regular_homotopy
 
 FRAMES, SAMPLES, REPEATS = 200, 2000, 5
@@ -25,22 +24,14 @@ def curves():
     return a, b
 
 
-def best_of(fn) -> float:
-    times = []
-    for _ in range(REPEATS):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return min(times)
-
 
 def main() -> None:
     a, b = curves()
     theta = np.random.default_rng(0).normal(size=(FRAMES, SAMPLES))
-    base = best_of(lambda: np.cumsum(np.exp(1j * theta), axis=1))
-    homotopy = best_of(lambda: regular_homotopy(a, b, frames=FRAMES, samples=SAMPLES))
+    base = best_of(lambda: np.cumsum(np.exp(1j * theta), axis=1), REPEATS)
+    homotopy = best_of(lambda: regular_homotopy(a, b, frames=FRAMES, samples=SAMPLES), REPEATS)
     h = regular_homotopy(a, b, frames=FRAMES, samples=SAMPLES)
-    marks = best_of(lambda: marks_per_frame(h.points))
+    marks = best_of(lambda: marks_per_frame(h.points), REPEATS)
     print(f"baseline exp+cumsum ({FRAMES}x{SAMPLES}): {base * 1e3:8.1f} ms  (1.0)")
     print(f"regular_homotopy incl. checks:      {homotopy * 1e3:8.1f} ms  ({homotopy / base:.1f}x)")
     print(f"marks_per_frame:                    {marks * 1e3:8.1f} ms  ({marks / base:.1f}x)")

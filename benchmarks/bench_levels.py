@@ -16,18 +16,10 @@ import argparse
 import time
 
 import numpy as np
+from timing import best_of
 from turnabout.eversion import Controls, default_mesh, evaluate
 from turnabout.progress import ProgressBar
 from turnabout.views.levels import level_points, level_topology
-
-
-def best_of(fn, repeat: int) -> float:
-    best = np.inf
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t)
-    return best
 
 
 def main(argv=None) -> None:

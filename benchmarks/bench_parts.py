@@ -12,20 +12,10 @@ Run: python benchmarks/bench_parts.py [--repeat 5]
 from __future__ import annotations
 
 import argparse
-import time
 
-import numpy as np
+from timing import best_of
 from turnabout.eversion import Controls, default_mesh
 from turnabout.views import surface_parts, symmetry_face_maps, symmetry_vertex_maps
-
-
-def best_of(fn, repeat: int) -> float:
-    best = np.inf
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t)
-    return best
 
 
 def main(argv=None) -> int:
