@@ -192,6 +192,8 @@ def _render_still(scene, tmp: str) -> None:
     scene.render.filepath = tmp
     with blender_output_silenced():
         bpy.ops.render.render(write_still=True, scene=scene.name)
+    if os.path.getsize(tmp) == 0:  # the writer made it empty: nothing was rendered into it
+        raise HeadlessError(f"render: Blender wrote no image for frame {scene.frame_current}")
 
 
 def render_frames(
@@ -292,6 +294,8 @@ def save_blend(path: str, compress: bool = True) -> str:
         os.remove(tmp)
         with blender_output_silenced():  # "Info: Saved copy as ..." names the temporary file
             bpy.ops.wm.save_as_mainfile(filepath=tmp, compress=compress, copy=True)
+        if not os.path.isfile(tmp):
+            raise HeadlessError(f"output: Blender did not save {path!r}")
 
     atomic_write(path, save)
     return path

@@ -277,3 +277,12 @@ def test_the_panel_speaks_the_options_words_and_keeps_depth_in_range():
     s = bpy.context.scene.turnabout
     s.depth = 0.9  # the old default 0.1 and this lay outside what the core accepts
     assert s.depth == pytest.approx(hi)
+
+
+@pytest.mark.parametrize("folder", ["//", "//cache", "//cache/", "//../up/c", "//a//b"])
+def test_double_slash_folders_resolve_as_blender_resolves_them(tmp_path, folder):
+    from turnabout.output import resolve_blend_relative
+
+    blend = str(tmp_path / "shots" / "a.blend")
+    blenders = os.path.abspath(bpy.path.abspath(folder, start=os.path.dirname(blend)))
+    assert resolve_blend_relative(folder, blend, "cache folder") == blenders
