@@ -170,7 +170,9 @@ def bake_eversion(
     pc2 = None
     if plan.mode == "POINT_CACHE":
         folder = resolve_blend_relative(cache_dir, bpy.data.filepath, "cache folder")
-        pc2 = cache_file_path(str(make_output_folder(folder, "cache folder")), ob_name)
+        make_output_folder(folder, "cache folder")
+        # the folder as given (links unresolved), so its path relative to the .blend reads so
+        pc2 = cache_file_path(folder, ob_name)
 
     total = 2 * plan.n_keys
     if positions is not None:
