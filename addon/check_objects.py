@@ -22,8 +22,6 @@ from dataclasses import dataclass, field
 import bpy
 import numpy as np
 from bpy.props import BoolProperty, IntProperty, StringProperty
-from turnabout.check.heat import heat_colours
-from turnabout.check.report import report_paths
 from turnabout.frame_ranges import frames_to_check
 from turnabout.output import check_output_folder, make_output_folder, resolve_blend_relative
 
@@ -192,6 +190,8 @@ def check_steps(
     judges frames in that many forked processes (headless runs only: a forked copy of an
     interactive Blender is not something to rely on).
     """
+    from turnabout.check.report import report_paths  # the checker loads on first use
+
     validate_object(ob)
     if folder is not None:
         check_output_folder(folder, "report folder")
@@ -286,6 +286,8 @@ def _numeric_columns(table: dict, n: int) -> dict:
 
 def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_object: bool = False):
     """Show a finished check in the scene (markers, metric curves, heat, list, curves)."""
+    from turnabout.check.heat import heat_colours
+
     from .bake import _set_fcurve
 
     scene = context.scene
