@@ -21,6 +21,7 @@ from bpy.props import (
 )
 
 from . import view_objects as vo
+from .props import PATH_OPTIONS
 from . import view_stills, view_stripes
 from .view_options import (
     DEFAULT_STRIPE_SPACING,
@@ -108,6 +109,7 @@ class TURNABOUT_PG_views(bpy.types.PropertyGroup):
         description="Where the side-by-side render goes ('//' = beside the .blend)",
         default="//slices.png",
         subtype="FILE_PATH",
+        options=PATH_OPTIONS,
     )
     level_text: BoolProperty(
         name="Count text",
