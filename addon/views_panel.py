@@ -21,8 +21,8 @@ from bpy.props import (
 )
 
 from . import view_objects as vo
-from .props import PATH_OPTIONS
 from . import view_stills, view_stripes
+from .props import PATH_OPTIONS
 from .view_options import (
     DEFAULT_STRIPE_SPACING,
     PARTS_HELP,

@@ -23,6 +23,7 @@ from __future__ import annotations
 import bpy
 
 UI = bpy.types.UILayout.bl_rna
+PATH_SUBTYPES = ("FILE_PATH", "DIR_PATH")
 
 
 class LayoutCallError(AssertionError):
@@ -105,7 +106,7 @@ class LayoutRecorder:
         outputs = [p for p in fn.parameters if p.is_output]
         if len(args) > len(inputs):
             _fail(f"UILayout.{name}: {len(args)} positional arguments, at most {len(inputs)}")
-        given = dict(zip((p.identifier for p in inputs), args))
+        given = dict(zip((p.identifier for p in inputs), args, strict=False))
         for key, value in kwargs.items():
             if key in given:
                 _fail(f"UILayout.{name}: {key!r} given twice")
@@ -131,10 +132,7 @@ class LayoutRecorder:
             if name == "prop_enum" and prop is not None:
                 if given["value"] not in _enum_ids(prop):
                     _fail(f"UILayout.prop_enum: {given['value']!r} not in {prop.identifier}")
-            if prop is not None and prop.type == "STRING" and prop.subtype in (
-                "FILE_PATH",
-                "DIR_PATH",
-            ):
+            if prop is not None and prop.type == "STRING" and prop.subtype in PATH_SUBTYPES:
                 shown = getattr(given["data"], given["property"])
                 if shown.startswith("//") and not getattr(
                     prop, "is_path_supports_blend_relative", True

@@ -56,10 +56,8 @@ def _draw_everything(context) -> dict:
     for cls in lists:
         layout = LayoutRecorder()
         for i, row in enumerate(s.results):
-            cls.draw_item(
-                types.SimpleNamespace(layout=layout), context, layout, s, row, 0, s,
-                "results_index", i,
-            )  # fmt: skip
+            stand_in = types.SimpleNamespace(layout=layout)
+            cls.draw_item(stand_in, context, layout, s, row, 0, s, "results_index", i)
         out[cls.__name__] = layout
     menu = LayoutRecorder()
     ui.draw_add_menu(types.SimpleNamespace(layout=menu), context)
@@ -171,8 +169,8 @@ def test_the_check_panel_shows_the_verdict_and_the_list_only_after_a_check(drawn
 
 
 def test_the_build_panel_shows_the_cache_folder_only_for_point_caches(drawn):
-    assert "cache_dir" in drawn["an eversion stored as a point cache"]["TURNABOUT_PT_build"]\
-        .props_drawn()  # fmt: skip
+    cached = drawn["an eversion stored as a point cache"]["TURNABOUT_PT_build"]
+    assert "cache_dir" in cached.props_drawn()
     assert "cache_dir" not in drawn["nothing selected"]["TURNABOUT_PT_build"].props_drawn()
 
 
@@ -190,8 +188,8 @@ def test_the_curves_panel_shows_a_circles_turning_number(drawn):
     labels = drawn["a closed curve active"]["TURNABOUT_PT_curves"].labels()
     numbers = [t for t in labels if "turning number" in t]
     assert len(numbers) == 1 and numbers[0].split("turning number ")[1] in ("1", "-1")
-    assert "Select a closed curve object" in drawn["nothing selected"]["TURNABOUT_PT_curves"]\
-        .labels()  # fmt: skip
+    nothing = drawn["nothing selected"]["TURNABOUT_PT_curves"]
+    assert "Select a closed curve object" in nothing.labels()
 
 
 # ----------------------------------------------------------------------------- the recorder
@@ -231,8 +229,16 @@ def _layout_function_typo(layout, s):
 
 @pytest.mark.parametrize(
     "draw",
-    [_typo_property, _unregistered_operator, _operator_property_typo, _bad_icon, _bad_keyword,
-     _bad_attribute, _unregistered_list, _layout_function_typo],  # fmt: skip
+    [
+        _typo_property,
+        _unregistered_operator,
+        _operator_property_typo,
+        _bad_icon,
+        _bad_keyword,
+        _bad_attribute,
+        _unregistered_list,
+        _layout_function_typo,
+    ],
 )
 def test_the_recorder_refuses_what_blender_would_refuse(draw):
     fresh_file()
