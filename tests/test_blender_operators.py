@@ -17,9 +17,8 @@ from blender_support import (
     evaluated_positions,
     orphans,
     set_small_build,
-    small_mesh,
 )
-from turnabout.eversion import STAGE_NAMES, Controls, build, default_depth
+from turnabout.eversion import STAGE_NAMES, Controls, build, default_depth, mesh_for
 
 pytestmark = pytest.mark.blender
 
@@ -86,7 +85,7 @@ def test_loading_the_documented_depth_keeps_it_following_the_strips():
 
 def test_load_settings_and_clear_check_are_undoable_steps():
     from turnabout_blender.bake import TURNABOUT_OT_load_settings
-    from turnabout_blender.checking import TURNABOUT_OT_clear_check
+    from turnabout_blender.check_objects import TURNABOUT_OT_clear_check
 
     for op in (TURNABOUT_OT_load_settings, TURNABOUT_OT_clear_check):
         assert {"REGISTER", "UNDO"} <= op.bl_options, op.bl_idname
@@ -156,7 +155,7 @@ def _checked_sphere(curve_object=True):
 
 
 def _metric_paths(ob) -> list[str]:
-    from turnabout_blender.checking import METRIC_PREFIX
+    from turnabout_blender.check_objects import METRIC_PREFIX
 
     ad = ob.animation_data
     if ad is None or ad.action is None:
@@ -171,7 +170,7 @@ def _metric_paths(ob) -> list[str]:
 
 @pytest.mark.usefixtures("blank")
 def test_clearing_a_check_removes_everything_it_showed_and_keeps_the_users_markers():
-    from turnabout_blender.checking import CURVE_SUFFIX, HEAT_ATTRIBUTE, METRIC_PREFIX
+    from turnabout_blender.check_objects import CURVE_SUFFIX, HEAT_ATTRIBUTE, METRIC_PREFIX
 
     ob = _checked_sphere()
     scene = bpy.context.scene
@@ -192,7 +191,7 @@ def test_clearing_a_check_removes_everything_it_showed_and_keeps_the_users_marke
 
 @pytest.mark.usefixtures("blank")
 def test_clearing_a_check_does_not_depend_on_what_is_selected():
-    from turnabout_blender.checking import HEAT_ATTRIBUTE, METRIC_PREFIX
+    from turnabout_blender.check_objects import HEAT_ATTRIBUTE, METRIC_PREFIX
 
     ob = _checked_sphere(curve_object=False)
     bpy.ops.mesh.primitive_cube_add()  # the user selects something else
@@ -201,6 +200,25 @@ def test_clearing_a_check_does_not_depend_on_what_is_selected():
     assert [k for k in ob.keys() if k.startswith(METRIC_PREFIX)] == []
     assert HEAT_ATTRIBUTE not in ob.data.color_attributes
     assert len(bpy.context.scene.turnabout.results) == 0
+
+
+@pytest.mark.usefixtures("blank")
+def test_clearing_a_check_keeps_the_other_turnabout_records_on_the_checked_object():
+    # a curve wall carries its build record under a name that starts like the metrics
+    c = bpy.context.scene.turnabout_curves
+    c.frames, c.samples, c.show_marks = 4, 32, False
+    bpy.ops.curve.primitive_bezier_circle_add(radius=1.0)
+    bpy.ops.curve.primitive_bezier_circle_add(radius=0.6, location=(0.2, 0.1, 0.0))
+    bpy.data.objects[0].select_set(True)
+    assert bpy.ops.turnabout.curve_homotopy() == {"FINISHED"}
+    wall = bpy.context.active_object
+    record = wall["turnabout_curves"]
+    scene = bpy.context.scene
+    scene.frame_start, scene.frame_end = 1, 4
+    assert bpy.ops.turnabout.check(write_reports=False) == {"FINISHED"}
+    assert bpy.ops.turnabout.clear_check() == {"FINISHED"}
+    assert wall["turnabout_curves"] == record
+    assert [k for k in wall.keys() if k != "turnabout_curves" and k.startswith("turnabout_")] == []
 
 
 @pytest.mark.usefixtures("blank")
@@ -256,7 +274,8 @@ def test_a_point_cache_in_a_chosen_folder_works_unsaved_and_turns_relative_on_sa
     pc2 = tmp_path / "caches" / "Eversion.pc2"
     mod = ob.modifiers["Turnabout cache"]
     assert os.path.isabs(mod.filepath) and os.path.samefile(mod.filepath, pc2)
-    core = build(Controls(), frames=5, mesh=small_mesh())
+    mesh = mesh_for(Controls(), n_lon=64, n_lat=16)  # the panel's mesh (set_small_build)
+    core = build(Controls(), frames=5, mesh=mesh)
     np.testing.assert_allclose(_positions(ob), core.positions, atol=1e-5)
 
     (tmp_path / "project").mkdir()
@@ -294,7 +313,7 @@ def _interactive_check():
     """The check operator's own methods on a plain object, with the window manager and the
     workspace noting their calls (Blender makes operator instances only when it runs one,
     and never runs the modal part in background mode)."""
-    from turnabout_blender.checking import TURNABOUT_OT_check
+    from turnabout_blender.check_objects import TURNABOUT_OT_check
 
     wm = _Recorder(
         bpy.context.window_manager,
@@ -344,11 +363,11 @@ def test_esc_during_the_check_cancels_it_and_leaves_the_previous_results_alone()
     scene.frame_start, scene.frame_end = 1, 4
     scene.turnabout.check_curve_object = True
     assert bpy.ops.turnabout.check(write_reports=False) == {"FINISHED"}
+    scene.frame_end = 80  # a longer second check, cancelled while the checker runs
+    scene.frame_set(9)
     before = _snapshot(ob)
     threads = threading.active_count()
 
-    scene.frame_end = 80  # a longer second check, cancelled while the checker runs
-    scene.frame_set(9)
     op, context, wm, workspace = _interactive_check()
     assert op._begin_modal(context) == {"RUNNING_MODAL"}
     assert op.modal(context, MOUSE) == {"PASS_THROUGH"}
