@@ -123,8 +123,13 @@ def test_loading_settings_without_an_eversion_selected_says_so_and_changes_nothi
 
 @pytest.mark.parametrize(
     "record",
-    ["not json", json.dumps({"controls": {"strips": 10}}), json.dumps([1, 2]), "{}",
-     json.dumps({"controls": {"strips": 3, "depth": 0.16, "timing": {}}})],  # fmt: skip
+    [
+        "not json",
+        json.dumps({"controls": {"strips": 10}}),
+        json.dumps([1, 2]),
+        "{}",
+        json.dumps({"controls": {"strips": 3, "depth": 0.16, "timing": {}}}),
+    ],  # fmt: skip
 )
 @pytest.mark.usefixtures("blank")
 def test_a_damaged_build_record_is_refused_without_touching_the_panel(record):
