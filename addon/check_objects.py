@@ -467,7 +467,10 @@ class TURNABOUT_OT_check(bpy.types.Operator):
 
     @classmethod
     def poll(cls, context):
-        return context.active_object is not None
+        if context.active_object is not None:
+            return True
+        cls.poll_message_set("select a mesh object to check")
+        return False
 
     def _prepare(self, context):
         s = context.scene.turnabout
@@ -557,10 +560,16 @@ class TURNABOUT_OT_check(bpy.types.Operator):
                 )
         except StopIteration as stop:
             self._stop(context)
-            return self._finish(context, bpy.data.objects[self._ob_name], stop.value)
+            # by the name the check ended with (the user may have renamed it meanwhile)
+            return self._finish(context, bpy.data.objects[stop.value.object_name], stop.value)
         except (ValueError, OSError) as exc:
             self._stop(context)
             self.report({"ERROR"}, str(exc))
+            return {"CANCELLED"}
+        except ReferenceError:  # the user deleted the object while the check ran
+            self._steps.close()
+            self._stop(context)
+            self.report({"ERROR"}, f"object: {self._ob_name!r} was removed during the check")
             return {"CANCELLED"}
         return {"RUNNING_MODAL"}
 

@@ -267,6 +267,18 @@ def test_a_point_cache_beside_an_unsaved_file_is_refused_before_anything_is_made
     assert counts() == before and orphans() == []
     assert list(tmp_path.iterdir()) == []
 
+    # re-building a shape-key eversion as a point cache is refused the same way, in place
+    s.bake_mode = "SHAPE_KEYS"
+    assert bpy.ops.turnabout.add_eversion() == {"FINISHED"}
+    ob = bpy.context.active_object
+    shapes, before = _positions(ob), counts()
+    s.bake_mode = "POINT_CACHE"
+    with pytest.raises(RuntimeError, match="cache folder: .*save"):
+        bpy.ops.turnabout.rebuild()
+    assert counts() == before and list(ob.modifiers) == []
+    np.testing.assert_array_equal(_positions(ob), shapes)
+    assert list(tmp_path.iterdir()) == []
+
 
 @pytest.mark.usefixtures("blank")
 def test_a_point_cache_in_a_chosen_folder_works_unsaved_and_turns_relative_on_save(tmp_path):
@@ -413,3 +425,57 @@ def test_the_interactive_check_finishes_with_what_the_background_check_gives():
     assert _snapshot(ob) == want
     calls = [name for name, _ in wm.log]
     assert calls.count("progress_begin") == calls.count("progress_end") == 1
+
+
+@pytest.mark.parametrize("stage", ["reading frames", "checking"])
+@pytest.mark.usefixtures("blank")
+def test_deleting_the_object_during_the_check_ends_it_with_a_message(stage):
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=48, ring_count=24)
+    ob = bpy.context.active_object
+    scene = bpy.context.scene
+    scene.frame_start, scene.frame_end = 1, 400 if stage == "reading frames" else 80
+    threads = threading.active_count()
+    op, context, wm, workspace = _interactive_check()
+    assert op._begin_modal(context) == {"RUNNING_MODAL"}
+    assert op.modal(context, TIMER) == {"RUNNING_MODAL"}
+    while not workspace.log[-1][1][0].startswith(f"Turnabout: {stage}"):
+        assert op.modal(context, TIMER) == {"RUNNING_MODAL"}
+    bpy.data.objects.remove(ob)  # the user deletes it while the check runs
+    for _ in range(10000):
+        result = op.modal(context, TIMER)
+        if result != {"RUNNING_MODAL"}:
+            break
+    assert result == {"CANCELLED"}
+    assert op.reports == [({"ERROR"}, "object: 'Sphere' was removed during the check")]
+    calls = [name for name, _ in wm.log]
+    assert calls.count("progress_begin") == calls.count("progress_end") == 1
+    assert "event_timer_remove" in calls and workspace.log[-1][1] == (None,)
+    assert len(scene.turnabout.results) == 0 and len(scene.timeline_markers) == 0
+    assert threading.active_count() == threads
+
+
+@pytest.mark.usefixtures("blank")
+def test_checking_with_nothing_selected_says_what_to_select():
+    before = counts()
+    with pytest.raises(RuntimeError, match="select a mesh object to check"):
+        bpy.ops.turnabout.check(write_reports=False)
+    assert counts() == before
+
+
+@pytest.mark.usefixtures("blank")
+def test_renaming_the_object_during_the_check_still_shows_the_results_on_it():
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    ob = bpy.context.active_object
+    scene = bpy.context.scene
+    scene.frame_start, scene.frame_end = 1, 5
+    op, context, wm, workspace = _interactive_check()
+    assert op._begin_modal(context) == {"RUNNING_MODAL"}
+    assert op.modal(context, TIMER) == {"RUNNING_MODAL"}
+    ob.name = "Renamed sphere"
+    for _ in range(10000):
+        result = op.modal(context, TIMER)
+        if result != {"RUNNING_MODAL"}:
+            break
+    assert result == {"FINISHED"}
+    assert "turnabout_heat" in bpy.data.objects["Renamed sphere"].data.color_attributes
+    assert len(scene.turnabout.results) == 5
