@@ -15,7 +15,8 @@ panel draws and the classes that are registered:
   properties exist on it;
 * ``template_list``: the list class is registered, the collection and the index exist.
 
-Each call is kept in ``calls`` (function name and arguments by name) for assertions.
+Each call is kept in ``calls`` (function name, arguments by name, the layout it was made
+on) for assertions.
 """
 
 from __future__ import annotations
@@ -79,9 +80,19 @@ class OperatorPropsRecorder:
 class LayoutRecorder:
     """Records and checks the calls made on it and on the layouts it hands out."""
 
-    def __init__(self, calls: list | None = None):
+    def __init__(self, calls: list | None = None, parent: LayoutRecorder | None = None):
         object.__setattr__(self, "calls", [] if calls is None else calls)
         object.__setattr__(self, "attributes", {})
+        object.__setattr__(self, "parent", parent)
+
+    def shown_enabled(self) -> bool:
+        """Whether this layout and every layout around it are enabled (as last set)."""
+        layout = self
+        while layout is not None:
+            if layout.attributes.get("enabled", True) is False:
+                return False
+            layout = layout.parent
+        return True
 
     def __setattr__(self, name, value):
         prop = UI.properties.get(name)
@@ -124,7 +135,7 @@ class LayoutRecorder:
         for param in inputs:
             if param.is_required and param.identifier not in given:
                 _fail(f"UILayout.{name}: the required {param.identifier!r} is missing")
-        self.calls.append((name, given))
+        self.calls.append((name, given, self))
 
         result = None
         if name in ("prop", "prop_enum", "prop_menu_enum", "props_enum", "prop_tabs_enum"):
@@ -159,7 +170,7 @@ class LayoutRecorder:
                 _fail(f"UILayout.{name}: menu {given['menu']!r} is not registered")
         if outputs and getattr(outputs[0], "fixed_type", None) is not None:
             if outputs[0].fixed_type.identifier == "UILayout":
-                result = LayoutRecorder(self.calls)
+                result = LayoutRecorder(self.calls, self)
         return result
 
     # --- for assertions

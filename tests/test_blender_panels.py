@@ -65,6 +65,12 @@ def _draw_everything(context) -> dict:
     return out
 
 
+def _polls(context) -> dict:
+    """idname -> whether the operator can run here, for the add-on operators with a poll."""
+    ops = [c for c in _addon_classes() if issubclass(c, bpy.types.Operator)]
+    return {c.bl_idname: bool(c.poll(context)) for c in ops if "poll" in c.__dict__}
+
+
 # ----------------------------------------------------------------------------- states
 
 
@@ -127,6 +133,7 @@ def drawn():
         fresh_file()
         make()
         out[name] = _draw_everything(bpy.context)
+        out[name]["polls"] = _polls(bpy.context)
     fresh_file()
     return out
 
@@ -143,6 +150,32 @@ def test_every_panel_draws_only_existing_properties_and_registered_operators(dra
     for name in panels:
         layout = drawn[state][name]
         assert layout is not None and layout.calls, f"{name} drew nothing in {state!r}"
+
+
+@pytest.mark.parametrize("state", list(STATES))
+def test_a_button_greyed_out_by_a_panel_is_one_its_operator_refuses_there(drawn, state):
+    polls = drawn[state]["polls"]
+    assert {"turnabout.rebuild", "turnabout.load_settings"} <= set(polls)
+    for name, layout in drawn[state].items():
+        if not isinstance(layout, LayoutRecorder):
+            continue
+        for call, given, where in layout.calls:
+            op = given.get("operator") if call == "operator" else None
+            if op in polls and not where.shown_enabled():
+                assert not polls[op], f"{name} greys out {op} in {state!r}, which could run"
+
+
+def test_rebuild_and_load_buttons_are_live_exactly_when_an_eversion_is_active(drawn):
+    for state, layouts in drawn.items():
+        live = {
+            given["operator"]: where.shown_enabled()
+            for call, given, where in layouts["TURNABOUT_PT_build"].calls
+            if call == "operator"
+        }
+        eversion = state in ("an eversion stored as a point cache", "after a check")
+        assert live["turnabout.rebuild"] == live["turnabout.load_settings"] == eversion, state
+        assert live["turnabout.add_eversion"], state
+        assert layouts["polls"]["turnabout.rebuild"] == eversion, state
 
 
 def test_every_addon_operator_is_reachable_from_a_panel_or_the_add_menu(drawn):
