@@ -85,7 +85,7 @@ def test_loading_the_documented_depth_keeps_it_following_the_strips():
 
 def test_load_settings_and_clear_check_are_undoable_steps():
     from turnabout_blender.bake import TURNABOUT_OT_load_settings
-    from turnabout_blender.check_objects import TURNABOUT_OT_clear_check
+    from turnabout_blender.clear_check import TURNABOUT_OT_clear_check
 
     for op in (TURNABOUT_OT_load_settings, TURNABOUT_OT_clear_check):
         assert {"REGISTER", "UNDO"} <= op.bl_options, op.bl_idname
@@ -464,18 +464,20 @@ def test_checking_with_nothing_selected_says_what_to_select():
 
 @pytest.mark.usefixtures("blank")
 def test_renaming_the_object_during_the_check_still_shows_the_results_on_it():
-    bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
+    bpy.ops.mesh.primitive_uv_sphere_add(segments=48, ring_count=24)
     ob = bpy.context.active_object
     scene = bpy.context.scene
-    scene.frame_start, scene.frame_end = 1, 5
+    scene.frame_start, scene.frame_end = 1, 40
     op, context, wm, workspace = _interactive_check()
     assert op._begin_modal(context) == {"RUNNING_MODAL"}
     assert op.modal(context, TIMER) == {"RUNNING_MODAL"}
-    ob.name = "Renamed sphere"
+    while not workspace.log[-1][1][0].startswith("Turnabout: checking"):
+        assert op.modal(context, TIMER) == {"RUNNING_MODAL"}
+    ob.name = "Renamed sphere"  # while the checker runs
     for _ in range(10000):
         result = op.modal(context, TIMER)
         if result != {"RUNNING_MODAL"}:
             break
     assert result == {"FINISHED"}
     assert "turnabout_heat" in bpy.data.objects["Renamed sphere"].data.color_attributes
-    assert len(scene.turnabout.results) == 5
+    assert len(scene.turnabout.results) == 40
