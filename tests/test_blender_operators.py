@@ -1,5 +1,6 @@
 """Operators driven as a user drives them: load settings, clear a check, point caches in an
-unsaved file, and cancelling the interactive check with Esc."""
+unsaved file, and the interactive check (its modal steps fed timer and Esc events, the
+object deleted or renamed while it runs)."""
 
 from __future__ import annotations
 
