@@ -333,6 +333,41 @@ class TURNABOUT_OT_rebuild(bpy.types.Operator):
         return _run_bake(self, context, ob)
 
 
+def _panel_values(record) -> dict:
+    """Panel settings (name -> value) from an object's build record (the "turnabout" JSON),
+    all read and validated before any is set; BakeError when the record is not one we wrote."""
+    from turnabout.eversion import STAGE_NAMES, Controls, default_depth
+
+    try:
+        data = json.loads(record)
+        c = data["controls"]
+        timing = {k: (float(c["timing"][k][0]), float(c["timing"][k][1])) for k in STAGE_NAMES}
+        controls = Controls(strips=int(c["strips"]), depth=float(c["depth"]), timing=timing)
+        n_lon, n_lat = (int(v) for v in data["mesh"])
+        if data["mode"] not in ("SHAPE_KEYS", "POINT_CACHE"):
+            raise ValueError(f"store as {data['mode']!r}")
+        out = {
+            "strips": controls.strips,
+            # the record holds the depth used; the documented one keeps following the strips
+            "auto_depth": controls.wave_depth == default_depth(controls.strips),
+            "depth": controls.wave_depth,
+            "frames": int(data["frames"]),
+            "frame_start": int(data["frame_start"]),
+            "key_step": int(data["key_step"]),
+            "bake_mode": data["mode"],
+            "mesh_lon": n_lon,
+            "mesh_lat": n_lat,
+        }
+    except (TypeError, ValueError, KeyError, AttributeError) as exc:  # ControlError too
+        raise BakeError(
+            f"object property {PROP_TAG!r}: not a Turnabout build record ({exc}); "
+            "re-build the object from the panel or add a new eversion"
+        ) from None
+    for stage, (a, b) in timing.items():
+        out[f"{stage}_start"], out[f"{stage}_end"] = a, b
+    return out
+
+
 class TURNABOUT_OT_load_settings(bpy.types.Operator):
     """Copy the active eversion's build settings into the panel"""
 
@@ -342,19 +377,20 @@ class TURNABOUT_OT_load_settings(bpy.types.Operator):
 
     @classmethod
     def poll(cls, context):
-        return is_eversion_object(context.active_object)
+        if is_eversion_object(context.active_object):
+            return True
+        cls.poll_message_set("select a Turnabout eversion to load its settings")
+        return False
 
     def execute(self, context):
-        data = json.loads(context.active_object[PROP_TAG])
+        try:
+            values = _panel_values(context.active_object[PROP_TAG])
+        except BakeError as exc:
+            self.report({"ERROR"}, str(exc))
+            return {"CANCELLED"}
         s = context.scene.turnabout
-        c = data["controls"]
-        s.strips = c["strips"]
-        s.depth = c["depth"]
-        for stage, (a, b) in c["timing"].items():
-            setattr(s, f"{stage}_start", a)
-            setattr(s, f"{stage}_end", b)
-        s.frames, s.frame_start, s.key_step = data["frames"], data["frame_start"], data["key_step"]
-        s.bake_mode = data["mode"]
+        for name, value in values.items():
+            setattr(s, name, value)
         return {"FINISHED"}
 
 

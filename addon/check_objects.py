@@ -30,6 +30,7 @@ MARKER_WORST = "turnabout worst"
 MARKER_QUADRUPLE = "turnabout four sheets"
 _OUR_MARKERS = (MARKER_FAIL, MARKER_WORST, MARKER_QUADRUPLE)
 METRIC_PREFIX = "turnabout_"
+METRIC_DESCRIPTION = "Turnabout check metric"  # begins each metric property's description
 HEAT_ATTRIBUTE = "turnabout_heat"
 CURVE_SUFFIX = " double curves"
 METRICS_ACTION_SUFFIX = " check metrics"
@@ -316,7 +317,7 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
         prop = METRIC_PREFIX + name
         finite = np.clip(np.nan_to_num(values, nan=0.0, posinf=1e30, neginf=-1e30), -1e30, 1e30)
         ob[prop] = float(finite[cur])
-        ob.id_properties_ui(prop).update(description=f"Turnabout check metric '{name}' per frame")
+        ob.id_properties_ui(prop).update(description=f"{METRIC_DESCRIPTION} '{name}' per frame")
         _set_fcurve(action, ob, f'["{prop}"]', frames.astype(np.float64), finite)
 
     # heat of the current frame (or the worst one when the current frame was not checked)
@@ -405,7 +406,10 @@ class TURNABOUT_OT_check(bpy.types.Operator):
 
     @classmethod
     def poll(cls, context):
-        return context.active_object is not None
+        if context.active_object is not None:
+            return True
+        cls.poll_message_set("select a mesh object to check")
+        return False
 
     def _prepare(self, context):
         s = context.scene.turnabout
@@ -458,6 +462,10 @@ class TURNABOUT_OT_check(bpy.types.Operator):
     def invoke(self, context, event):
         if bpy.app.background:
             return self.execute(context)
+        return self._begin_modal(context)
+
+    def _begin_modal(self, context):
+        """Validate, then step the check from timer events (the interface's path)."""
         try:
             self._ob_name = context.active_object.name
             _, self._steps = self._prepare(context)
@@ -496,34 +504,18 @@ class TURNABOUT_OT_check(bpy.types.Operator):
                 )
         except StopIteration as stop:
             self._stop(context)
-            return self._finish(context, bpy.data.objects[self._ob_name], stop.value)
+            # by the name the check ended with (the user may have renamed it meanwhile)
+            return self._finish(context, bpy.data.objects[stop.value.object_name], stop.value)
         except (ValueError, OSError) as exc:
             self._stop(context)
             self.report({"ERROR"}, str(exc))
             return {"CANCELLED"}
+        except ReferenceError:  # the user deleted the object while the check ran
+            self._steps.close()
+            self._stop(context)
+            self.report({"ERROR"}, f"object: {self._ob_name!r} was removed during the check")
+            return {"CANCELLED"}
         return {"RUNNING_MODAL"}
 
 
-class TURNABOUT_OT_clear_check(bpy.types.Operator):
-    """Remove the check's markers, metric curves, heat attribute and list"""
-
-    bl_idname = "turnabout.clear_check"
-    bl_label = "Clear Check Results"
-    bl_options = {"REGISTER", "UNDO"}
-
-    def execute(self, context):
-        scene = context.scene
-        for m in [m for m in scene.timeline_markers if m.name in _OUR_MARKERS]:
-            scene.timeline_markers.remove(m)
-        scene.turnabout.results.clear()
-        scene.turnabout.last_verdict = ""
-        ob = context.active_object
-        if ob is not None:
-            for key in [k for k in ob.keys() if k.startswith(METRIC_PREFIX)]:
-                del ob[key]
-            if ob.type == "MESH" and HEAT_ATTRIBUTE in ob.data.color_attributes:
-                ob.data.color_attributes.remove(ob.data.color_attributes[HEAT_ATTRIBUTE])
-        return {"FINISHED"}
-
-
-CLASSES = (TURNABOUT_OT_check, TURNABOUT_OT_clear_check)
+CLASSES = (TURNABOUT_OT_check,)
