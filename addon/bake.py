@@ -222,7 +222,7 @@ def write_pc2(path: str, chunks, n_points: int, n_samples: int, start: float = 0
     float32 start, float32 sampling rate, int32 samples; then float32 xyz per point per
     sample. Written to a temporary file in the same folder, then renamed.
     """
-    from turnabout.meshseq import atomic_write_bytes
+    from turnabout.output import atomic_write_bytes
 
     def blocks():
         yield PC2_HEADER

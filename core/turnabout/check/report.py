@@ -350,7 +350,7 @@ class AnimationReport:
             raise RuntimeError(
                 "plots need matplotlib: install the 'plot' extra (pip install turnabout[plot])"
             ) from exc
-        from ..meshseq import atomic_write_bytes
+        from ..output import atomic_write_bytes
 
         t = self.metrics_table()
         th = self.thresholds
