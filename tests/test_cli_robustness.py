@@ -23,9 +23,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from surfaces import round_sphere
 from turnabout import meshseq, output
 from turnabout.cli import build_parser, main
-from turnabout.surfaces import round_sphere
 
 REPO = Path(__file__).resolve().parents[1]
 CONTROL_OPTIONS = {
