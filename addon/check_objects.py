@@ -224,7 +224,7 @@ def _run_checker(
 
 def _atomic_write(path: str, writer) -> None:
     """Write a report through a temporary file that keeps its extension (for the plotter)."""
-    from turnabout.meshseq import atomic_write
+    from turnabout.output import atomic_write
 
     atomic_write(path, writer, suffix=".part" + os.path.splitext(path)[1])
 
