@@ -6,6 +6,7 @@ the repository (they break on checkouts without link support), and short source 
 
 from __future__ import annotations
 
+import re
 import subprocess
 import tomllib
 from pathlib import Path
@@ -59,3 +60,23 @@ def test_no_source_file_is_long_without_a_reason_at_its_top():
         if len(lines) > LONG and not any("Long file:" in ln for ln in lines[:20]):
             long_files.append((path, len(lines)))
     assert long_files == []
+
+
+def test_the_docs_cite_only_files_a_reader_can_open():
+    # every file named in README.md, DEVELOPERS.md and docs/ is in the repository
+    names = {path for _, path in _tracked()}
+    basenames = {p.rsplit("/", 1)[-1] for p in names}
+    pages = [REPO / "README.md", REPO / "DEVELOPERS.md", *sorted((REPO / "docs").glob("*.md"))]
+    missing = []
+    for page in pages:
+        for token in set(re.findall(r"[A-Za-z0-9_./-]+\.(?:md|py)\b", page.read_text())):
+            token = token.strip("./")
+            if token.startswith("_"):  # a name pattern such as `*_command.py`
+                continue
+            if "/" in token:
+                ok = token in names or any(n.endswith("/" + token) for n in names)
+            else:
+                ok = token in basenames
+            if not ok:
+                missing.append((page.name, token))
+    assert missing == []
