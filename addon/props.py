@@ -128,11 +128,11 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     depth: FloatProperty(
         name=LABELS["depth"],
         description="Corrugation depth as a fraction of the sphere's radius "
-        f"({depth_range(MIN_STRIPS)[0]:g}-{depth_range(MIN_STRIPS)[1]:g}; the documented "
+        f"({depth_range()[0]:g}-{depth_range()[1]:g}; the documented "
         f"depth is {default_depth(MIN_STRIPS):g} for 8-9 strips, {default_depth(10):g} above)",
         default=default_depth(MIN_STRIPS),
-        min=depth_range(MIN_STRIPS)[0],
-        max=depth_range(MIN_STRIPS)[1],
+        min=depth_range()[0],
+        max=depth_range()[1],
         precision=4,
         step=0.1,
     )

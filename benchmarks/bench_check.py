@@ -26,10 +26,13 @@ import time
 
 import numpy as np
 from timing import best_of
-from turnabout import surfaces
 from turnabout.check import check_animation, self_intersections
 from turnabout.check.topology import MeshTopology
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+
+# the reference surfaces are test fixtures (tests/surfaces.py)
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "tests"))
+import surfaces  # noqa: E402
 
 
 def wobbling_sphere(frames: int) -> tuple[np.ndarray, np.ndarray]:

@@ -12,7 +12,7 @@ import os
 import pytest
 from blender_support import REPO, bpy
 
-pytestmark = [pytest.mark.blender, pytest.mark.slow]
+pytestmark = pytest.mark.blender
 
 FOLDER = os.path.join(REPO, "blend_samples")
 SAMPLES = sorted(f for f in os.listdir(FOLDER) if f.endswith(".blend"))

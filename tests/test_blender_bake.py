@@ -271,7 +271,7 @@ def test_the_panel_speaks_the_options_words_and_keeps_depth_in_range():
     for stage in STAGE_NAMES:
         assert props[f"{stage}_start"].name == f"{PANEL_LABELS[stage]} start"
     assert [i.name for i in props["mesh_spacing"].enum_items] == ["bend", "even"]
-    lo, hi = depth_range(8)
+    lo, hi = depth_range()
     assert props["depth"].default == pytest.approx(default_depth(8))
     assert (props["depth"].hard_min, props["depth"].hard_max) == pytest.approx((lo, hi))
     s = bpy.context.scene.turnabout

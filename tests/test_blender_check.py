@@ -216,7 +216,7 @@ def test_the_check_reports_the_bakes_frame_times(tmp_path):
 def test_notes_are_shown_beside_the_verdict():
     # four spheres meeting in two points of four sheets (see test_check_intersections): a
     # note on every frame, no warning, so the verdict stays ok and the notes show
-    from turnabout import surfaces
+    import surfaces
 
     p, f = surfaces.round_sphere(24)
     a, b = 0.4, 0.9  # a generic turn of each sphere: no face meets another one edge-on

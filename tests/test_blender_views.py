@@ -1,8 +1,10 @@
-"""Views of a baked eversion in Blender: parts sharing the bake, stills, reveal, stripes.
+"""Views of a baked eversion in Blender: parts sharing the bake, stills, reveal, stripes,
+their renders and the saved file.
 
 The reference for every face count is the core (``turnabout.views``), computed here on the
 same sphere mesh; positions come from Blender's depsgraph; renders are checked on pixels
-against the analytic image of the round sphere (the motion's first frame).
+against the analytic image of the round sphere (the motion's first frame). Bad input, the
+panel's operators and the command line: tests/test_blender_view_operators.py.
 """
 
 from __future__ import annotations
@@ -12,55 +14,10 @@ import os
 
 import numpy as np
 import pytest
-from blender_support import REPO, blank, bpy, counts, run_python  # noqa: F401  (fixture)
+from blender_support import blank, bpy, run_python  # noqa: F401  (fixture)
+from view_support import MESH, STRIPS, baked_eversion, evaluated_mesh, sphere_mesh
 
 pytestmark = pytest.mark.blender
-
-STRIPS = 8
-MESH = (64, 17)  # an odd ring count: the equator is not a ring, so quads split there
-KINDS = COUNTED_VIEWS = ("objects", "meshes", "materials", "node_groups", "actions", "collections")
-
-
-def _sphere():
-    from turnabout.mesh import uniform_sphere_mesh
-
-    return uniform_sphere_mesh(*MESH)
-
-
-def _build(frames=8, mode="SHAPE_KEYS", size=(160, 120), cache_dir=None, samples=8):
-    from turnabout.eversion import Controls
-
-    from turnabout_blender import headless
-
-    return headless.build_scene(
-        Controls(strips=STRIPS),
-        frames=frames,
-        mesh=_sphere(),
-        mode=mode,
-        cache_dir=cache_dir,
-        size=size,
-        samples=samples,
-    )
-
-
-def _data_counts() -> dict:
-    out = counts()
-    for kind in KINDS:
-        out[kind] = len(getattr(bpy.data, kind))
-    return out
-
-
-def _evaluated(ob, frame):
-    """(positions (v, 3) float64, triangles (m, 3) int32) of ``ob`` evaluated at ``frame``."""
-    scene = bpy.context.scene
-    scene.frame_set(frame)
-    me = ob.evaluated_get(bpy.context.evaluated_depsgraph_get()).data
-    me.calc_loop_triangles()
-    co = np.empty(len(me.vertices) * 3, np.float32)
-    me.vertices.foreach_get("co", co)
-    tri = np.empty(len(me.loop_triangles) * 3, np.int32)
-    me.loop_triangles.foreach_get("vertices", tri)
-    return co.reshape(-1, 3).astype(np.float64), tri.reshape(-1, 3)
 
 
 def _sorted_rows(p):
@@ -70,7 +27,7 @@ def _sorted_rows(p):
 def _core_parts():
     from turnabout.views.parts import surface_parts
 
-    return surface_parts(_sphere(), STRIPS)
+    return surface_parts(sphere_mesh(), STRIPS)
 
 
 CHOICES = [
@@ -88,8 +45,8 @@ def test_parts_view_shows_exactly_the_core_faces_and_shares_the_bake(tmp_path, m
     from turnabout_blender import view_objects as vo
     from turnabout_blender.view_options import parse_parts
 
-    ob = _build(mode=mode, cache_dir=str(tmp_path))
-    sphere, parts = _sphere(), _core_parts()
+    ob = baked_eversion(mode=mode, cache_dir=str(tmp_path))
+    sphere, parts = sphere_mesh(), _core_parts()
     tris = sphere.triangles()
     scene = bpy.context.scene
     n_keys = len(bpy.data.shape_keys)
@@ -99,9 +56,9 @@ def test_parts_view_shows_exactly_the_core_faces_and_shares_the_bake(tmp_path, m
         assert view.data is ob.data  # the same mesh datablock, so the same shape keys
         assert view.material_slots[0].material is ob.material_slots[0].material  # both sides
         for frame in (2, 6):
-            p_view, t_view = _evaluated(view, frame)
+            p_view, t_view = evaluated_mesh(view, frame)
             ob.hide_viewport = False  # read the whole surface at the same frame
-            p_full, _ = _evaluated(ob, frame)
+            p_full, _ = evaluated_mesh(ob, frame)
             ob.hide_viewport = True
             assert len(t_view) == int(mask.sum()), (text, frame)
             # the view's vertices are exactly the vertices of the core's chosen triangles,
@@ -122,35 +79,34 @@ def test_the_fundamental_piece_is_one_2n_th_of_the_faces():
     from turnabout_blender import view_objects as vo
     from turnabout_blender.view_options import parse_parts
 
-    ob = _build(frames=4)
+    ob = baked_eversion(frames=4)
     view = vo.make_parts_view(bpy.context.scene, ob, parse_parts("tile", STRIPS))
     total = 2 * MESH[0] * MESH[1]
     for frame in (1, 3):
-        _, tri = _evaluated(view, frame)
+        _, tri = evaluated_mesh(view, frame)
         assert len(tri) * 2 * STRIPS == total
     # and the 2n tiles together are the whole surface, each once
     seen = 0
     for g in range(2 * STRIPS):
         view = vo.make_parts_view(bpy.context.scene, ob, parse_parts(f"tile:{g}", STRIPS))
-        seen += len(_evaluated(view, 2)[1])
+        seen += len(evaluated_mesh(view, 2)[1])
     assert seen == total
 
 
 @pytest.mark.usefixtures("blank")
 def test_reveal_plays_the_core_order_with_a_keyframed_threshold():
     from turnabout.views.reveal import reveal_order
-
     from turnabout_blender import view_objects as vo
 
-    ob = _build(frames=9)
+    ob = baked_eversion(frames=9)
     scene = bpy.context.scene
     view = vo.add_reveal(scene, ob, "band", 4, (1, 9))
-    order = reveal_order(_sphere(), STRIPS, by="band", count=4)
+    order = reveal_order(sphere_mesh(), STRIPS, by="band", count=4)
     top = order.max() + 1e-3
     shown = []
     for frame in (1, 3, 5, 7, 9):
         threshold = top * (frame - 1) / 8  # the LINEAR keyframes 0 at frame 1, top at 9
-        _, tri = _evaluated(view, frame)
+        _, tri = evaluated_mesh(view, frame)
         assert len(tri) == int((order < threshold).sum()), frame
         shown.append(len(tri))
     assert shown[0] == 0 and shown[-1] == len(order)
@@ -161,11 +117,10 @@ def test_reveal_plays_the_core_order_with_a_keyframed_threshold():
 def test_stills_are_static_copies_of_the_bake_at_the_key_moments():
     from turnabout.eversion import Controls
     from turnabout.views.reveal import key_moments
-
     from turnabout_blender import view_objects as vo
     from turnabout_blender import view_stills as vs
 
-    ob = _build(frames=21)
+    ob = baked_eversion(frames=21)
     before_keys = len(bpy.data.shape_keys)
     stills = vs.add_stills(bpy.context.scene, ob)
     moments = key_moments(Controls(strips=STRIPS))
@@ -176,7 +131,7 @@ def test_stills_are_static_copies_of_the_bake_at_the_key_moments():
     ob.hide_viewport = False
     for still, (_, t) in zip(stills, moments, strict=True):
         frame = 1 + round(t * 20)
-        p_full, _ = _evaluated(ob, frame)
+        p_full, _ = evaluated_mesh(ob, frame)
         co = np.empty(len(still.data.vertices) * 3, np.float32)
         still.data.vertices.foreach_get("co", co)
         assert still.data.shape_keys is None
@@ -211,7 +166,7 @@ def test_render_of_a_strip_and_caps_shows_background_and_the_inner_side_through_
     from turnabout_blender import view_objects as vo
     from turnabout_blender.view_options import parse_parts
 
-    ob = _build()
+    ob = baked_eversion()
     full = _render(tmp_path / "full.png", 1)
     vo.make_parts_view(bpy.context.scene, ob, parse_parts("guide:0 caps", STRIPS))
     part = _render(tmp_path / "part.png", 1)
@@ -232,11 +187,10 @@ def test_render_of_a_strip_and_caps_shows_background_and_the_inner_side_through_
 def test_render_of_the_stills_shows_one_blob_per_key_moment(tmp_path):
     from turnabout.eversion import Controls
     from turnabout.views.reveal import key_moments
-
     from turnabout_blender import view_stills as vs
     from turnabout_blender.view_wiring import stage_for_row
 
-    ob = _build(frames=24, size=(480, 72))
+    ob = baked_eversion(frames=24, size=(480, 72))
     stills = vs.add_stills(bpy.context.scene, ob, gap=0.6)
     stage_for_row(bpy.context.scene, stills, 480 / 72)
     img = _render(tmp_path / "stills.png", 1)
@@ -271,7 +225,7 @@ def test_height_stripes_follow_world_height_on_the_outer_side(tmp_path):
     from turnabout_blender.view_options import STRIPE_A, STRIPE_B
 
     spacing = 0.5
-    ob = _build(size=(120, 160), samples=16)
+    ob = baked_eversion(size=(120, 160), samples=16)
     vp.set_stripes(vp.eversion_material(ob), True, spacing)
     img = _render(tmp_path / "stripes.png", 1)
     _keep_image(tmp_path / "stripes.png", "views_stripes.png")
@@ -347,13 +301,12 @@ print("RESULT" + json.dumps(out))
 @pytest.mark.usefixtures("blank")
 def test_saved_file_plays_the_views_without_the_addon(tmp_path):
     from turnabout.views.reveal import reveal_order
-
     from turnabout_blender import headless
     from turnabout_blender import view_objects as vo
     from turnabout_blender import view_stripes as vp
     from turnabout_blender.view_options import parse_parts
 
-    ob = _build(frames=8)
+    ob = baked_eversion(frames=8)
     scene = bpy.context.scene
     vo.make_parts_view(scene, ob, parse_parts("wave:2,5 caps:south", STRIPS))
     vo.add_reveal(scene, ob, "part", None, (1, 8))
@@ -363,306 +316,9 @@ def test_saved_file_plays_the_views_without_the_addon(tmp_path):
     proc = run_python(REOPEN, blend, str(tmp_path / "r.png"), user_dir=tmp_path / "user")
     result = json.loads(proc.stdout.split("RESULT")[1].splitlines()[0])
     mask = _core_parts().select(waves=(2, 5), caps=("south",))
-    order = reveal_order(_sphere(), STRIPS, by="part")
+    order = reveal_order(sphere_mesh(), STRIPS, by="part")
     top = order.max() + 1e-3
     want = [int((mask & (order < top * (f - 1) / 7)).sum()) for f in (2, 7)]
     assert result["parts:Eversion view"] == want
     assert want[0] < want[1]
     assert result["alpha"] > 20  # the render is not empty
-
-
-# ----------------------------------------------------------------------------- bad input
-
-
-def _cube():
-    me = bpy.data.meshes.new("Box")
-    me.from_pydata([(0, 0, 0), (1, 0, 0), (0, 1, 0)], [], [(0, 1, 2)])
-    cube = bpy.data.objects.new("Box", me)
-    bpy.context.scene.collection.objects.link(cube)
-    return cube
-
-
-@pytest.mark.parametrize(
-    "op, settings, message",
-    [
-        ("show_parts", {"parts": "guide:8"}, "guide index 8 is out of range"),
-        ("show_parts", {"parts": "stripes"}, "unknown word 'stripes'"),
-        ("show_parts", {"parts": "caps:east"}, "unknown cap 'east'"),
-        ("show_parts", {"parts": "tile:16"}, "0-15"),
-        ("add_slice_rig", {"slice_count": 4, "slice_which": 4}, "band 4 is out of range"),
-        ("add_slice_rig", {"level_up": (0.0, 0.0, 0.0)}, "non-zero"),
-        ("add_level_points", {"level_up": (0.0, 0.0, 0.0)}, "non-zero"),
-        ("add_reveal", {"reveal_use_range": False, "reveal_start": 9, "reveal_end": 3}, "9-3"),
-        ("add_stills", {"target": "Box"}, "not a Turnabout eversion"),
-        ("show_parts", {"target": "Box"}, "not a Turnabout eversion"),
-        ("add_reveal", {"target": "Box"}, "not a Turnabout eversion"),
-        ("apply_stripes", {"target": "Box"}, "not a Turnabout eversion"),
-    ],
-)
-@pytest.mark.usefixtures("blank")
-def test_bad_view_input_is_refused_and_changes_nothing(op, settings, message):
-    from turnabout_blender import view_objects as vo
-    from turnabout_blender.view_options import parse_parts
-
-    ob = _build(frames=4)
-    vo.make_parts_view(bpy.context.scene, ob, parse_parts("guide:1", STRIPS))
-    _cube()
-    bpy.context.view_layer.objects.active = ob
-    s = bpy.context.scene.turnabout_views
-    kwargs = {}
-    for key, value in settings.items():
-        if key == "target":
-            kwargs["target"] = value
-        else:
-            setattr(s, key, value)
-    before = _data_counts()
-    mod = bpy.data.objects["Eversion view"].modifiers[vo.FILTER_MOD]
-    shown = [i.default_value for i in mod.node_group.nodes[vo.N_PARTS].inputs[1:-1]]
-    with pytest.raises(RuntimeError) as err:
-        getattr(bpy.ops.turnabout, op)(**kwargs)
-    assert message in str(err.value)
-    assert _data_counts() == before
-    assert [i.default_value for i in mod.node_group.nodes[vo.N_PARTS].inputs[1:-1]] == shown
-
-
-@pytest.mark.usefixtures("blank")
-def test_panel_operators_make_and_clear_the_views():
-    ob = _build(frames=6)
-    bpy.context.view_layer.objects.active = ob
-    before = _data_counts()
-    s = bpy.context.scene.turnabout_views
-    s.parts = "guide:0,1 caps"
-    assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
-    ob.name = "Sphere"  # the view follows its eversion by pointer, not by name
-    bpy.context.view_layer.objects.active = bpy.data.objects["Eversion view"]
-    assert bpy.ops.turnabout.show_parts(parts="wave") == {"FINISHED"}
-    assert len([o for o in bpy.data.objects if "turnabout_view" in o]) == 1
-    s.reveal_by = "PART"
-    assert bpy.ops.turnabout.add_reveal() == {"FINISHED"}
-    s.stripes = True
-    assert bpy.ops.turnabout.apply_stripes() == {"FINISHED"}
-    assert bpy.ops.turnabout.add_stills() == {"FINISHED"}
-    assert ob.hide_render
-    assert bpy.ops.turnabout.clear_views() == {"FINISHED"}
-    s.stripes = False
-    assert bpy.ops.turnabout.apply_stripes() == {"FINISHED"}
-    after = _data_counts()
-    assert after == before
-    assert not ob.hide_render and not ob.hide_viewport
-    assert not [a.name for a in ob.data.attributes if a.name.startswith("turnabout_")
-                and a.name != "turnabout_guide"]  # fmt: skip
-
-
-@pytest.mark.usefixtures("blank")
-def test_a_rebuilt_eversion_keeps_its_view_on_the_new_bake_without_orphans():
-    from blender_support import orphans, set_small_build
-    from turnabout.views.parts import surface_parts
-
-    s = bpy.context.scene.turnabout
-    set_small_build(s, frames=6, n_lon=64, n_lat=16)
-    s.mesh_spacing = "EVEN"
-    bpy.ops.turnabout.add_eversion()
-    ob = bpy.context.active_object
-    bpy.context.scene.turnabout_views.parts = "wave:1 caps:north"
-    assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
-    s.strips, s.mesh_lon = 10, 80  # ten strips need a multiple of ten longitudes
-    bpy.context.view_layer.objects.active = ob
-    assert bpy.ops.turnabout.rebuild() == {"FINISHED"}
-    bpy.context.scene.turnabout_views.parts = "wave:9 caps:north"
-    assert bpy.ops.turnabout.show_parts() == {"FINISHED"}
-    view = bpy.data.objects["Eversion view"]
-    assert view.data is ob.data and orphans() == []
-    from turnabout_blender import view_objects as vo
-
-    info = vo.eversion_info(ob)
-    mask = surface_parts(vo.sphere_of(ob, info), 10).select(waves=(9,), caps=("north",))
-    assert len(_evaluated(view, 4)[1]) == int(mask.sum())
-
-
-@pytest.mark.usefixtures("blank")
-def test_undo_takes_a_parts_view_back():
-    ob = _build(frames=4)
-    bpy.context.view_layer.objects.active = ob
-    bpy.ops.ed.undo_push(message="baked")
-    before = _data_counts()
-    assert bpy.ops.turnabout.show_parts(parts="guide:2") == {"FINISHED"}
-    bpy.ops.ed.undo_push(message="parts shown")
-    assert _data_counts() != before
-    bpy.ops.ed.undo()
-    assert _data_counts() == before
-    assert not bpy.data.objects["Eversion"].hide_render
-
-
-@pytest.mark.usefixtures("blank")
-def test_slice_and_level_point_buttons_call_the_rigs_and_clear_views_removes_them(tmp_path):
-    ob = _build(frames=6, size=(64, 48), samples=2)
-    bpy.context.view_layer.objects.active = ob
-    before = _data_counts()
-    s = bpy.context.scene.turnabout_views
-    s.slice_count, s.slice_which = 5, 2
-    s.slice_image = str(tmp_path / "band.png")
-    assert bpy.ops.turnabout.show_parts(parts="guide") == {"FINISHED"}  # hides the eversion
-    assert bpy.ops.turnabout.add_slice_rig() == {"FINISHED"}
-    assert bpy.context.scene.camera.name == "Eversion band top"
-    assert bpy.ops.turnabout.render_slices() == {"FINISHED"}
-    from turnabout_blender import headless
-
-    img = headless.read_png(str(tmp_path / "band.png"))
-    assert img.shape[1] == 2 * 64 and (img[..., 3] > 0.5).sum() > 20
-    s.level_text = False
-    assert bpy.ops.turnabout.add_level_points() == {"FINISHED"}
-    assert "turnabout_signed_count" in ob
-    assert "Eversion count text" not in bpy.data.objects
-    s.level_text = True
-    assert bpy.ops.turnabout.add_level_points() == {"FINISHED"}
-    assert "Eversion count text" in bpy.data.objects
-    assert ob.hide_viewport  # still hidden behind its view after the rigs read it
-    assert bpy.ops.turnabout.clear_views() == {"FINISHED"}
-    after = _data_counts()
-    for kind in KINDS:
-        assert after[kind] == before[kind], kind
-
-
-class _Layout:
-    """Stands in for a panel's layout (there is no window headless): records what a draw
-    asks for, so the test can check every named property and operator exists."""
-
-    def __init__(self, log):
-        self.log = log
-        self.enabled = True
-
-    def __getattr__(self, name):
-        if name in ("row", "column", "box", "split", "grid_flow"):
-            return lambda *a, **k: _Layout(self.log)
-        return lambda *a, **k: None
-
-    def prop(self, data, name, **kwargs):
-        self.log.append(("prop", data, name))
-
-    def operator(self, idname, **kwargs):
-        self.log.append(("operator", None, idname))
-
-
-@pytest.mark.usefixtures("blank")
-def test_the_views_panel_names_only_settings_and_operators_that_exist():
-    from types import SimpleNamespace
-
-    from turnabout_blender.views_panel import TURNABOUT_PT_views
-
-    ob = _build(frames=4)
-    log = []
-    panel = SimpleNamespace(layout=_Layout(log))
-    TURNABOUT_PT_views.draw(panel, SimpleNamespace(scene=bpy.context.scene, active_object=ob))
-    props = [name for kind, _, name in log if kind == "prop"]
-    ops = [name for kind, _, name in log if kind == "operator"]
-    assert len(props) >= 15 and len(ops) >= 9
-    s = bpy.context.scene.turnabout_views
-    for name in props:
-        assert name in s.bl_rna.properties, name
-    for idname in ops:
-        group, op = idname.split(".")
-        assert hasattr(getattr(bpy.ops, group), op), idname
-        assert getattr(getattr(bpy.ops, group), op).poll() in (True, False)
-
-
-# ----------------------------------------------------------------------------- command line
-
-
-@pytest.mark.parametrize(
-    "extra, message",
-    [
-        (["--parts", "guide:8"], "--parts: guide index 8 is out of range"),
-        (["--parts", "rim"], "--parts: unknown word 'rim'"),
-        (["--reveal", "spiral"], "--reveal: must be band or part"),
-        (["--reveal", "band", "--reveal-frames", "5-2"], "--reveal-frames"),
-        (["--stripes", "0"], "--stripes: the spacing must be a number > 0"),
-        (["--slices", "4", "--slice", "4"], "--slice: band 4 is out of range"),
-        (["--slices", "4", "--slice-width", "60"], "--slice-width"),
-        (["--up", "0,0,0"], "--up: must be a non-zero"),
-        (["--up", "1,2"], "--up: must be three numbers"),
-    ],
-)
-@pytest.mark.usefixtures("blank")
-def test_bad_view_options_exit_2_naming_the_option_before_any_work(
-    tmp_path, capsys, extra, message
-):
-    from turnabout.cli import main
-
-    out = tmp_path / "x.blend"
-    code = main(
-        ["scene", str(out), "--frames", "4", "--lon", "64", "--lat", "16", "--quiet", *extra]
-    )
-    assert code == 2
-    assert message in capsys.readouterr().err
-    assert not out.exists()
-    assert len(bpy.data.objects) == 0  # refused before the scene was built
-
-
-@pytest.mark.usefixtures("blank")
-def test_scene_command_writes_every_view(tmp_path, capsys):
-    from turnabout.cli import main
-
-    from turnabout_blender import headless
-    from turnabout_blender import view_objects as vo
-    from turnabout_blender import view_stripes as vp
-
-    out = str(tmp_path / "shot.blend")
-    argv = [
-        "scene",
-        out,
-        "--frames",
-        "6",
-        "--lon",
-        "64",
-        "--lat",
-        "17",
-        "--quiet",
-        "--size",
-        "80x60",
-    ]
-    argv += ["--parts", "guide:0,1", "caps", "--reveal", "band:4", "--stripes", "0.25"]
-    assert main(argv) == 0
-    headless.open_blend(out)
-    view = bpy.data.objects["Eversion view"]
-    assert json.loads(view[vo.VIEW_TAG])["parts"] == "guide:0,1 caps"
-    assert json.loads(view[vo.VIEW_TAG])["reveal"] == ["band", 4, 1, 6]
-    # the command's mesh has the default spacing (samples where the surface bends), which
-    # the add-on reads back from the UV map: the core's parts on the exact mesh must match
-    from turnabout.baking.plan import mesh_from_settings
-    from turnabout.eversion import Controls
-    from turnabout.views.parts import surface_parts
-
-    exact = mesh_from_settings(Controls(), 64, 17, "bend")
-    mask = surface_parts(exact, STRIPS).select(guides=(0, 1), caps=("south", "north"))
-    _, tri = _evaluated(view, 6)
-    assert len(tri) == int(mask.sum())
-    nodes = bpy.data.objects["Eversion"].data.materials[0].node_tree.nodes
-    assert nodes[vp.N_STRIPE_SCALE].inputs[1].default_value == pytest.approx(0.25)
-
-
-@pytest.mark.usefixtures("blank")
-def test_render_side_by_side_shows_the_band_from_above_beside_the_side_view(tmp_path, capsys):
-    from turnabout.cli import main
-
-    from turnabout_blender import headless
-
-    band = str(tmp_path / "band.blend")
-    base = ["--frames", "6", "--lon", "64", "--lat", "16", "--spacing", "even", "--quiet"]
-    assert main(["scene", band, *base, "--slices", "6", "--slice", "2"]) == 0
-    out = tmp_path / "pairs"
-    argv = ["render", band, str(out), "--frames", "1,4", "--size", "64x48", "--samples", "4"]
-    assert main([*argv, "--side-by-side", "--quiet"]) == 0
-    for f in (1, 4):
-        img = headless.read_png(str(out / f"frame_{f:04d}.png"))
-        assert img.shape[:2] == (48, 128)  # twice the width: top view, then side view
-        for half in (img[:, :64], img[:, 64:]):
-            # the surface shows in both halves against the dark world
-            assert (half[..., :3].max(axis=-1) > 0.2).mean() > 0.03
-    # a file without a band camera is refused before anything is rendered
-    plain = str(tmp_path / "plain.blend")
-    assert main(["scene", plain, *base]) == 0
-    capsys.readouterr()
-    none = tmp_path / "none"
-    assert main(["render", plain, str(none), "--frames", "1", "--side-by-side", "--quiet"]) == 2
-    assert "--side-by-side" in capsys.readouterr().err
-    assert not none.exists() or not any(none.iterdir())

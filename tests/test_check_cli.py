@@ -8,9 +8,10 @@ import sys
 
 import numpy as np
 import pytest
-from turnabout import meshseq
 from turnabout.cli import main
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+from turnabout.meshfiles.npz import write_npz
+from turnabout.meshfiles.obj import write_obj_sequence
 
 
 @pytest.fixture(scope="module")
@@ -23,14 +24,14 @@ def sphere():
 def breathing(tmp_path, sphere):
     p0, faces = sphere
     scale = 1.0 + 0.1 * np.sin(np.linspace(0, np.pi, 8))
-    return meshseq.write_npz(tmp_path / "breathe.npz", p0[None] * scale[:, None, None], faces)
+    return write_npz(tmp_path / "breathe.npz", p0[None] * scale[:, None, None], faces)
 
 
 @pytest.fixture
 def push(tmp_path, sphere):
     p0, faces = sphere
     pos = np.stack([p0 * np.array([1.0, 1.0, s]) for s in np.linspace(1, -1, 11)])
-    return meshseq.write_npz(tmp_path / "push.npz", pos, faces)
+    return write_npz(tmp_path / "push.npz", pos, faces)
 
 
 def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, capsys):
@@ -67,7 +68,7 @@ def test_bad_threshold_is_exit_two(breathing, capsys):
 
 def test_obj_folder_with_welding(tmp_path, sphere):
     p0, faces = sphere
-    meshseq.write_obj_sequence(tmp_path / "obj", np.stack([p0, 1.1 * p0]), faces)
+    write_obj_sequence(tmp_path / "obj", np.stack([p0, 1.1 * p0]), faces)
     assert main(["check", str(tmp_path / "obj"), "--weld", "--quiet"]) == 0
 
 
@@ -75,7 +76,7 @@ def _garbage(tmp_path, sphere, kind):
     p0, faces = sphere
     path = tmp_path / "bad.npz"
     if kind == "truncated":
-        meshseq.write_npz(path, np.stack([p0, p0]), faces)
+        write_npz(path, np.stack([p0, p0]), faces)
         path.write_bytes(path.read_bytes()[:300])
     elif kind == "nan":
         pos = np.stack([p0, p0]).astype(np.float32)
@@ -87,7 +88,7 @@ def _garbage(tmp_path, sphere, kind):
         path.write_bytes(b"")
     elif kind == "topology":
         path = tmp_path / "frames"
-        meshseq.write_obj_sequence(path, np.stack([p0, p0]), faces)
+        write_obj_sequence(path, np.stack([p0, p0]), faces)
         f1 = path / "frame_0001.obj"
         f1.write_text(f1.read_text().replace("f 1 3 2\n", "f 1 2 3\n", 1) + "v 0 0 0\n")
     elif kind == "missing":
@@ -143,10 +144,10 @@ def test_summary_names_counts_causes_and_orientation(push, capsys):
 def test_torus_degree_is_written_as_zero_not_minus_zero(tmp_path):
     # Hopf: chi(torus) = 0, so its Gauss-map degree is 0 (H. Hopf, 1926); float noise must
     # not make it -0.0 or -4e-17 in the reports
-    from turnabout import surfaces
+    import surfaces
 
     p, f = surfaces.torus()
-    path = meshseq.write_npz(tmp_path / "torus.npz", p[None], f)
+    path = write_npz(tmp_path / "torus.npz", p[None], f)
     out = tmp_path / "t.json"
     assert main(["check", str(path), "--quiet", "--no-intersections", "--json", str(out),
                  "--csv", str(tmp_path / "t.csv")]) == 0  # fmt: skip

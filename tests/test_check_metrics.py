@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from turnabout import surfaces
+import surfaces
 from turnabout.check import gauss_map_degree, signed_volume
 from turnabout.check.curvature import mean_and_gaussian_curvature, principal_curvatures
 from turnabout.check.metrics import frame_metrics, reference_frame

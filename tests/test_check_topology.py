@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from turnabout import surfaces
+import surfaces
 from turnabout.check import topology_report
 from turnabout.check.topology import MeshTopology
 

@@ -177,7 +177,6 @@ def test_the_extractor_reads_blocks_chains_and_documented_codes(tmp_path):
         planned(page)
 
 
-@pytest.mark.slow
 @pytest.mark.parametrize("doc", _params())
 def test_documented_commands_run_as_written(doc, tmp_path):
     plan = planned(doc)

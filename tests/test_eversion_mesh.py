@@ -167,13 +167,13 @@ def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():
 
 def test_default_build_mid_motion_frame_is_ok_with_notes_on_the_command_line(tmp_path, capsys):
     # frame 296 of the default build, alone, through the command with intersections on
-    from turnabout import meshseq
     from turnabout.eversion import evaluate
+    from turnabout.meshfiles.npz import write_npz
 
     ctl = Controls()
     mesh = mesh_for(ctl)
     t = np.array([296 / (DEFAULT_FRAMES - 1)])
-    path = meshseq.write_npz(tmp_path / "mid.npz", evaluate(ctl, t, mesh), mesh.triangles())
+    path = write_npz(tmp_path / "mid.npz", evaluate(ctl, t, mesh), mesh.triangles())
     assert main(["check", str(path), "--json", str(tmp_path / "mid.json")]) == 0
     printed = capsys.readouterr().out
     assert "noted frames: 1 of 1 (multiple points 1" in printed

@@ -11,9 +11,9 @@ to twice that class (the Euler number of TS^2 is chi(S^2) = 2: Milnor and Stashe
 from __future__ import annotations
 
 import numpy as np
+from guide_topology import latitude_direction_zeros, tangent_sweep_class
 from turnabout.eversion import Controls
 from turnabout.eversion.construction import P_CENTRE, turn_at
-from turnabout.eversion.diagnostics import latitude_direction_zeros, tangent_sweep_class
 
 
 def test_tangent_sweep_class_is_an_integer_invariant_of_retiming():

@@ -21,11 +21,11 @@ import sys
 import numpy as np
 import pytest
 from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_chain
-from turnabout import meshseq
 from turnabout.check.metrics import gauss_map_degree
 from turnabout.check.topology import topology_report
 from turnabout.eversion import Controls, mesh_for, evaluate
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
+from turnabout.meshfiles.npz import write_npz
 from turnabout.views.levels import (
     BOWL,
     DOME,
@@ -78,7 +78,6 @@ def test_every_eversion_frame_has_signed_count_one(eversion_frames, which):
     )  # fmt: skip
 
 
-@pytest.mark.slow
 def test_every_frame_of_the_default_build_has_signed_count_one():
     # Hopf 1926, on the baked default eversion (480 float32 frames)
     from turnabout.eversion import build
@@ -454,7 +453,7 @@ def test_check_command_reports_level_points_per_frame(tmp_path):
     scale = 1.0 + 0.2 * np.sin(np.linspace(0, np.pi, 5))
     stretch = np.array([1.0, 1.0, 0.6])
     pos = p[None] * scale[:, None, None] * stretch
-    path = meshseq.write_npz(tmp_path / "breathe.npz", pos, f)
+    path = write_npz(tmp_path / "breathe.npz", pos, f)
     out = tmp_path / "r.json"
     table = tmp_path / "r.csv"
     proc = _run_cli(str(path), "--json", str(out), "--csv", str(table), "--up", "1,2,3",

@@ -50,7 +50,7 @@ def as_triangles(faces, n_vertices: int) -> np.ndarray:
                 )
         tri = faces.astype(np.int64)
     else:
-        from ..meshseq import MeshSequenceError, triangulate_polygons
+        from ..meshfiles.model import MeshSequenceError, triangulate_polygons
 
         try:
             tri = triangulate_polygons(faces).astype(np.int64)
@@ -230,14 +230,6 @@ class MeshTopology:
                 cand = ge[np.arange(e.size), np.argmax(pick, axis=1)]
                 out[e[found], side, slot] = cand[found]
         return out
-
-    @cached_property
-    def vertex_neighbors(self) -> tuple[np.ndarray, np.ndarray]:
-        """CSR (starts (V+1,), neighbours) of the vertex graph."""
-        a = np.concatenate([self.edges[:, 0], self.edges[:, 1]])
-        b = np.concatenate([self.edges[:, 1], self.edges[:, 0]])
-        order, starts = _csr(a, self.n_vertices)
-        return starts, b[order]
 
     @cached_property
     def used_vertices(self) -> np.ndarray:

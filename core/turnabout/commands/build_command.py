@@ -135,15 +135,19 @@ def run(args) -> int:
     except Cancelled:
         print("turnabout build: cancelled", file=sys.stderr)
         return 130
-    from .. import meshseq
-
     if fmt == "npz":
-        path = meshseq.write_npz(out, ev.positions, ev.faces, uv=ev.uv, times=ev.times)
+        from ..meshfiles.npz import write_npz
+
+        path = write_npz(out, ev.positions, ev.faces, uv=ev.uv, times=ev.times)
     elif fmt == "obj":
+        from ..meshfiles.obj import write_obj_sequence
+
         path = out
-        meshseq.write_obj_sequence(out, ev.positions, ev.faces, uv=ev.uv)
+        write_obj_sequence(out, ev.positions, ev.faces, uv=ev.uv)
     else:
+        from ..meshfiles.ply import write_ply_sequence
+
         path = out
-        meshseq.write_ply_sequence(out, ev.positions, ev.faces)
+        write_ply_sequence(out, ev.positions, ev.faces)
     print(f"wrote {ev.positions.shape[0]} frames x {ev.positions.shape[1]} vertices to {path}")
     return 0

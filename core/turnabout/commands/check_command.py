@@ -150,7 +150,8 @@ def _parse_up(text: str) -> tuple[float, float, float] | str:
 
 def run(args: argparse.Namespace) -> int:
     from ..check import CheckInputError, ThresholdError, Thresholds, check_animation
-    from ..meshseq import MeshSequenceError, read_sequence
+    from ..meshfiles import read_sequence
+    from ..meshfiles.model import MeshSequenceError
     from ..output import STDOUT, OutputError
     from ..views.levels import level_count_table
 

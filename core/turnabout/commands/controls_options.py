@@ -92,7 +92,7 @@ def stage_window(text: str) -> tuple[float, float]:
 
 def add_control_options(p: argparse.ArgumentParser) -> None:
     """Add --strips, --depth, --<stage>, --frames, --spacing, --lon, --lat to a parser."""
-    lo, hi = depth_range(MIN_STRIPS)
+    lo, hi = depth_range()
     d = Controls()
     g = p.add_argument_group("eversion controls (the same in build, scene, demo and the panel)")
     g.add_argument(

@@ -62,7 +62,7 @@ def _run_options(p: argparse.ArgumentParser, out_default: str) -> None:
 def add_parser(sub, name: str) -> argparse.ArgumentParser:
     if name == "tune":
         return _add_tune(sub, name)
-    lo, hi = depth_range(MIN_STRIPS)
+    lo, hi = depth_range()
     p = sub.add_parser(
         name,
         help="regularity figures over a grid of controls",

@@ -105,6 +105,6 @@ def read_curve(path, *, select: int | str | None = None, samples: int = 1024) ->
 
 def write_npz_atomic(path, arrays: dict) -> None:
     """Write arrays to an .npz file through the one deterministic, atomic npz writer."""
-    from ..meshseq import write_npz_arrays
+    from ..meshfiles.npz import write_npz_arrays
 
     write_npz_arrays(path, arrays)

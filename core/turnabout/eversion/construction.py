@@ -384,8 +384,3 @@ class FrameEvaluator:
         out[0] = (0.0, 0.0, poles[0, 2])  # on the axis (the closed form puts them there
         out[-1] = (0.0, 0.0, poles[1, 2])  # to rounding)
         return out
-
-
-def positions_at(controls: Controls, t: float, mesh: SphereMesh) -> np.ndarray:
-    """Vertex positions of ``mesh`` at time t, (V, 3) float64."""
-    return FrameEvaluator(controls, mesh)(t)

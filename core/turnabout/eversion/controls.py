@@ -68,8 +68,8 @@ class Controls:
     """A validated set of controls.
 
     strips : number of guide strips (n-fold symmetry about the vertical axis), integer >= MIN_STRIPS
-    depth : corrugation depth as a fraction of the sphere's radius (its range depends on strips;
-        see :func:`depth_range`); ``None`` picks the documented depth for the strip count
+    depth : corrugation depth as a fraction of the sphere's radius (in :func:`depth_range`);
+        ``None`` picks the documented depth for the strip count
     timing : stage name -> (start, end) fractions of the motion
     """
 
@@ -83,9 +83,6 @@ class Controls:
     @property
     def wave_depth(self) -> float:
         return default_depth(self.strips) if self.depth is None else float(self.depth)
-
-    def window(self, stage: str) -> tuple[float, float]:
-        return self.timing[stage]
 
     def with_changes(self, **changes) -> Controls:
         return replace(self, **changes)
@@ -127,8 +124,9 @@ def default_frames(strips: int) -> int:
 DEFAULT_FRAMES = default_frames(MIN_STRIPS)
 
 
-def depth_range(strips: int) -> tuple[float, float]:
-    """Allowed corrugation depth (inclusive) for a strip count, as a fraction of the radius.
+def depth_range() -> tuple[float, float]:
+    """Allowed corrugation depth (inclusive), as a fraction of the radius: the same for every
+    allowed strip count (MIN_STRIPS to MAX_STRIPS).
 
     Below the range the waves no longer dominate the rotation where the wave axis cannot
     follow it (the surface nears a fold); above it they reach the guide's focal distance.
@@ -159,7 +157,7 @@ def validate(c: Controls) -> None:
         raise ControlError("strips", f"must be from {MIN_STRIPS} to {MAX_STRIPS}, got {s}")
     if c.depth is not None:
         d = _finite("depth", c.depth)
-        lo, hi = depth_range(s)
+        lo, hi = depth_range()
         if not lo <= d <= hi:
             raise ControlError(
                 "depth", f"must be from {lo:.4g} to {hi:.4g} for {s} strips, got {d:.4g}"

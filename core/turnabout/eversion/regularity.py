@@ -23,10 +23,8 @@ from . import construction as C
 from .controls import STAGE_NAMES, ControlError, Controls
 
 # Acceptance of the fast build check (see README, "Regularity"): the normalised ratio must
-# stay at least MIN_RATIO everywhere; the curvature is reported, and refused only beyond
-# MAX_CURVATURE.
+# stay at least MIN_RATIO everywhere; the curvature is reported, never refused.
 MIN_RATIO = 0.05
-MAX_CURVATURE = float("inf")
 
 
 class RegularityError(ControlError):
@@ -55,10 +53,9 @@ class RegularityReport:
     bend_theta: np.ndarray = field(default_factory=lambda: np.zeros(0))
     bend_lat: np.ndarray = field(default_factory=lambda: np.zeros(0))
 
-    def first_failure(self, min_ratio: float = MIN_RATIO, max_curvature: float = MAX_CURVATURE):
-        bad = np.nonzero(
-            (self.ratio_per_time < min_ratio) | (self.curvature_per_time > max_curvature)
-        )[0]
+    def first_failure(self, min_ratio: float = MIN_RATIO) -> int | None:
+        """Index into ``times`` of the first time whose ratio is below ``min_ratio``, or None."""
+        bad = np.nonzero(self.ratio_per_time < min_ratio)[0]
         return None if bad.size == 0 else int(bad[0])
 
     def summary(self) -> str:
@@ -274,9 +271,7 @@ def require_regular(controls: Controls, progress: ProgressFn = no_progress) -> R
             "controls",
             f"the homotopy is not regular enough at t={t:.4f} (normalised ratio "
             f"{rep.ratio_per_time[i]:.4g}, floor {MIN_RATIO}; curvature x radius "
-            f"{rep.curvature_per_time[i]:.1f}"
-            + (f", ceiling {MAX_CURVATURE:g}" if np.isfinite(MAX_CURVATURE) else "")
-            + "); worst point "
+            f"{rep.curvature_per_time[i]:.1f}); worst point "
             f"t={rep.min_ratio_at[0]:.4f}, theta={np.degrees(rep.min_ratio_at[1]):.1f} deg, "
             f"lat={np.degrees(rep.min_ratio_at[2]):.1f} deg. Known to pass: {lo}; {hi}",
         )
@@ -287,7 +282,7 @@ def controls_range_text(controls: Controls) -> tuple[str, str]:
     """What the gate is known to pass, for the strip count given: (strips, depth and timing)."""
     from .controls import MAX_STRIPS, MIN_STRIPS, _default_timing, depth_range
 
-    lo, hi = depth_range(controls.strips)
+    lo, hi = depth_range()
     custom = [n for n, w in controls.timing.items() if tuple(w) != _default_timing()[n]]
     timing = (
         f"with the default windows (these controls change {', '.join(custom)})"

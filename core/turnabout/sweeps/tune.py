@@ -56,7 +56,7 @@ def tune_depth(
     """Search depth for ``strips`` (see the module's docstring); ``run_options`` go to
     :func:`~turnabout.sweeps.run.run_sweep` (workers, client, retries, progress)."""
     base = Controls(strips=strips, timing=dict(timing or Controls().timing))
-    lo, hi = depth_range(strips)
+    lo, hi = depth_range()
     tried: dict[float, dict] = {}
     computed = 0
     span = (lo, hi)

@@ -1,5 +1,8 @@
 """Topological diagnostics of a guide motion: can any wave axis make it regular?
 
+A design check of the construction (used by tests/test_eversion_topology.py), not part
+of the product.
+
 Along the guide g(lat, t) with unit tangent T, the waves keep the surface regular where
 the *projected latitude direction* u = P_T(e_z x g) is small, provided the wave axis is a
 nonvanishing normal field that follows u wherever u is comparable with the waves
@@ -23,9 +26,8 @@ earlier design had, admits no wave axis at all.
 from __future__ import annotations
 
 import numpy as np
-
-from . import construction as C
-from .controls import Controls
+from turnabout.eversion import construction as C
+from turnabout.eversion.controls import Controls
 
 
 def guide_frames(controls: Controls, lats: np.ndarray, times: np.ndarray):

@@ -7,9 +7,12 @@ import zipfile
 
 import numpy as np
 import pytest
-from turnabout import meshseq
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
-from turnabout.meshseq import MeshSequenceError
+from turnabout.meshfiles import read_sequence
+from turnabout.meshfiles.model import MeshSequenceError, ReadLimits
+from turnabout.meshfiles.npz import write_npz
+from turnabout.meshfiles.obj import write_obj_sequence
+from turnabout.meshfiles.ply import write_ply_sequence
 
 
 @pytest.fixture(scope="module")
@@ -23,8 +26,8 @@ def animated():
 
 def test_npz_round_trip_keeps_every_array(tmp_path, animated):
     pos, faces, uv, times, _ = animated
-    path = meshseq.write_npz(tmp_path / "a.npz", pos, faces, uv=uv, times=times)
-    seq = meshseq.read_sequence(path)
+    path = write_npz(tmp_path / "a.npz", pos, faces, uv=uv, times=times)
+    seq = read_sequence(path)
     assert seq.positions.dtype == np.float32 and seq.faces.dtype == np.int32
     assert np.array_equal(seq.positions, pos)
     assert np.array_equal(seq.faces, faces)
@@ -34,9 +37,9 @@ def test_npz_round_trip_keeps_every_array(tmp_path, animated):
 
 def test_npz_output_is_byte_identical_for_the_same_inputs(tmp_path, animated):
     pos, faces, uv, times, _ = animated
-    a = meshseq.write_npz(tmp_path / "a.npz", pos, faces, uv=uv, times=times)
+    a = write_npz(tmp_path / "a.npz", pos, faces, uv=uv, times=times)
     time.sleep(2.1)  # zip timestamps have 2 s resolution: a clock-based stamp would differ
-    b = meshseq.write_npz(tmp_path / "b.npz", pos.astype(np.float64), faces, uv=uv, times=times)
+    b = write_npz(tmp_path / "b.npz", pos.astype(np.float64), faces, uv=uv, times=times)
     assert a.read_bytes() == b.read_bytes()
     with zipfile.ZipFile(a) as zf:
         assert [i.filename for i in zf.infolist()] == [
@@ -46,7 +49,7 @@ def test_npz_output_is_byte_identical_for_the_same_inputs(tmp_path, animated):
 
 def test_npz_is_readable_by_numpy_without_pickle(tmp_path, animated):
     pos, faces, *_ = animated
-    path = meshseq.write_npz(tmp_path / "a.npz", pos, faces)
+    path = write_npz(tmp_path / "a.npz", pos, faces)
     with np.load(path, allow_pickle=False) as data:
         assert sorted(data.files) == ["faces", "positions"]
         assert np.array_equal(data["positions"], pos)
@@ -55,9 +58,9 @@ def test_npz_is_readable_by_numpy_without_pickle(tmp_path, animated):
 @pytest.mark.parametrize("with_uv", [False, True])
 def test_obj_sequence_round_trip(tmp_path, animated, with_uv):
     pos, faces, uv, _, _ = animated
-    paths = meshseq.write_obj_sequence(tmp_path / "obj", pos, faces, uv=uv if with_uv else None)
+    paths = write_obj_sequence(tmp_path / "obj", pos, faces, uv=uv if with_uv else None)
     assert [p.name for p in paths] == [f"frame_{i:04d}.obj" for i in range(4)]
-    seq = meshseq.read_sequence(tmp_path / "obj")
+    seq = read_sequence(tmp_path / "obj")
     assert np.array_equal(seq.positions, pos)  # 9 significant digits round-trip float32
     assert np.array_equal(seq.faces, faces)
     assert (seq.uv is not None) == with_uv
@@ -70,8 +73,8 @@ def test_ply_sequence_round_trip_with_polygons(tmp_path, animated, binary):
     pos, _, _, _, mesh = animated
     quads, tris = mesh.polygons()
     polys = list(quads) + list(tris)
-    meshseq.write_ply_sequence(tmp_path / "ply", pos, polys, binary=binary)
-    seq = meshseq.read_sequence(tmp_path / "ply")
+    write_ply_sequence(tmp_path / "ply", pos, polys, binary=binary)
+    seq = read_sequence(tmp_path / "ply")
     assert seq.faces is None  # quads are kept as polygons
     assert len(seq.polygons) == len(polys)
     assert all(np.array_equal(a, b) for a, b in zip(seq.polygons, polys, strict=True))
@@ -82,8 +85,8 @@ def test_ply_sequence_round_trip_with_polygons(tmp_path, animated, binary):
 def test_written_files_are_read_the_same_by_trimesh(tmp_path, animated):
     trimesh = pytest.importorskip("trimesh")
     pos, faces, *_ = animated
-    ply = meshseq.write_ply_sequence(tmp_path / "ply", pos, faces)[2]
-    obj = meshseq.write_obj_sequence(tmp_path / "obj", pos, faces)[2]
+    ply = write_ply_sequence(tmp_path / "ply", pos, faces)[2]
+    obj = write_obj_sequence(tmp_path / "obj", pos, faces)[2]
     for path in (ply, obj):
         m = trimesh.load(path, process=False)
         assert np.allclose(m.vertices, pos[2], atol=1e-6)
@@ -96,15 +99,15 @@ def test_reads_a_binary_ply_written_by_trimesh(tmp_path, animated):
     path = tmp_path / "ext" / "f_1.ply"
     path.parent.mkdir()
     trimesh.Trimesh(pos[1], faces, process=False).export(path)
-    seq = meshseq.read_sequence(path.parent)
+    seq = read_sequence(path.parent)
     assert np.allclose(seq.positions[0], pos[1])
     assert np.array_equal(seq.faces, faces)
 
 
 def test_writers_leave_no_temporary_files(tmp_path, animated):
     pos, faces, *_ = animated
-    meshseq.write_npz(tmp_path / "a.npz", pos, faces)
-    meshseq.write_ply_sequence(tmp_path, pos, faces)
+    write_npz(tmp_path / "a.npz", pos, faces)
+    write_ply_sequence(tmp_path, pos, faces)
     assert not [p for p in tmp_path.iterdir() if p.name.endswith(".part")]
 
 
@@ -113,46 +116,46 @@ def test_bad_input_to_a_writer_creates_no_file(tmp_path, animated):
     bad = pos.copy()
     bad[1, 3, 0] = np.nan
     with pytest.raises(MeshSequenceError, match="NaN"):
-        meshseq.write_npz(tmp_path / "a.npz", bad, faces)
+        write_npz(tmp_path / "a.npz", bad, faces)
     assert list(tmp_path.iterdir()) == []
 
 
 def test_truncated_npz_is_a_clear_error(tmp_path, animated):
     pos, faces, *_ = animated
-    path = meshseq.write_npz(tmp_path / "a.npz", pos, faces)
+    path = write_npz(tmp_path / "a.npz", pos, faces)
     data = path.read_bytes()
     path.write_bytes(data[: len(data) // 2])
     with pytest.raises(MeshSequenceError, match="truncated"):
-        meshseq.read_sequence(path)
+        read_sequence(path)
 
 
 def test_empty_file_is_a_clear_error(tmp_path):
     for name in ("a.npz", "a.obj", "a.ply"):
         (tmp_path / name).write_bytes(b"")
         with pytest.raises(MeshSequenceError, match="empty"):
-            meshseq.read_sequence(tmp_path / name)
+            read_sequence(tmp_path / name)
 
 
 def test_npz_with_object_arrays_is_refused(tmp_path):
     path = tmp_path / "evil.npz"
     np.savez(path, positions=np.array([object()], dtype=object), faces=np.zeros((1, 3), int))
     with pytest.raises(MeshSequenceError, match="Python objects"):
-        meshseq.read_sequence(path)
+        read_sequence(path)
 
 
 def test_npz_missing_arrays_names_what_is_needed(tmp_path):
     path = tmp_path / "x.npz"
     np.savez(path, verts=np.zeros((3, 3)))
     with pytest.raises(MeshSequenceError, match="positions"):
-        meshseq.read_sequence(path)
+        read_sequence(path)
 
 
 def test_oversized_header_is_refused_before_allocating(tmp_path, animated):
     pos, faces, *_ = animated
-    path = meshseq.write_npz(tmp_path / "a.npz", pos, faces)
-    limits = meshseq.ReadLimits(max_vertices=10)
+    path = write_npz(tmp_path / "a.npz", pos, faces)
+    limits = ReadLimits(max_vertices=10)
     with pytest.raises(MeshSequenceError, match="exceeds the limits"):
-        meshseq.read_sequence(path, limits=limits)
+        read_sequence(path, limits=limits)
 
 
 def test_faces_past_the_vertices_are_refused(tmp_path, animated):
@@ -162,33 +165,33 @@ def test_faces_past_the_vertices_are_refused(tmp_path, animated):
     path = tmp_path / "a.npz"
     np.savez(path, positions=pos, faces=f)
     with pytest.raises(MeshSequenceError, match="vertex index"):
-        meshseq.read_sequence(path)
+        read_sequence(path)
 
 
 def test_obj_frames_with_different_topology_are_refused(tmp_path, animated):
     pos, faces, *_ = animated
-    paths = meshseq.write_obj_sequence(tmp_path, pos, faces)
+    paths = write_obj_sequence(tmp_path, pos, faces)
     text = paths[2].read_text().splitlines()
     last_face = max(i for i, line in enumerate(text) if line.startswith("f "))
     text[last_face] = "f 1 2 3"
     paths[2].write_text("\n".join(text) + "\n")
     with pytest.raises(MeshSequenceError, match="same topology"):
-        meshseq.read_sequence(tmp_path)
+        read_sequence(tmp_path)
 
 
 def test_truncated_binary_ply_is_a_clear_error(tmp_path, animated):
     pos, faces, *_ = animated
-    path = meshseq.write_ply_sequence(tmp_path, pos[:1], faces)[0]
+    path = write_ply_sequence(tmp_path, pos[:1], faces)[0]
     data = path.read_bytes()
     path.write_bytes(data[:-40])
     with pytest.raises(MeshSequenceError, match="truncated|cut off"):
-        meshseq.read_sequence(path)
+        read_sequence(path)
 
 
 def test_unknown_extension_lists_the_allowed_ones(tmp_path):
     (tmp_path / "a.stl").write_bytes(b"solid")
     with pytest.raises(MeshSequenceError, match=r"\.npz"):
-        meshseq.read_sequence(tmp_path / "a.stl")
+        read_sequence(tmp_path / "a.stl")
 
 
 def test_welding_merges_seam_duplicates_only(tmp_path):
@@ -207,12 +210,12 @@ def test_welding_merges_seam_duplicates_only(tmp_path):
     tris += [[idx[i, -1], idx[i + 1, -1], north] for i in range(n_lon)]
     polys = [np.array(q) for q in quads + tris]
     frames = np.stack([pts, 1.5 * pts]).astype(np.float32)
-    meshseq.write_obj_sequence(tmp_path, frames, polys)
-    welded = meshseq.read_sequence(tmp_path, weld=True)
+    write_obj_sequence(tmp_path, frames, polys)
+    welded = read_sequence(tmp_path, weld=True)
     assert welded.n_vertices == n_lon * n_lat + 2  # exactly the seam column merged
     from turnabout.check import topology_report
 
     rep = topology_report(welded.triangles(), welded.n_vertices)
     assert rep.is_manifold and rep.euler_characteristic == 2
-    unwelded = meshseq.read_sequence(tmp_path)
+    unwelded = read_sequence(tmp_path)
     assert not topology_report(unwelded.triangles(), unwelded.n_vertices).closed

@@ -1,4 +1,5 @@
-"""Reference surfaces for tests and demos, each as (positions (V, 3) float64, faces (M, 3) int32).
+"""Reference surfaces for the tests and benchmarks, each as (positions (V, 3) float64,
+faces (M, 3) int32).
 
 - :func:`round_sphere` and :func:`torus`: closed orientable meshes.
 - :func:`boy_surface` (Bryant–Kusner parametrisation), :func:`roman_surface` (Steiner) and
