@@ -108,8 +108,8 @@ def remove_stills(ob) -> None:
 
 
 def row_radius(objects, aspect: float) -> float:
-    """The radius to give the stage camera (headless.add_camera_and_lights) so a row of objects along x,
-    centred on the origin, fits the frame of the given aspect (width / height)."""
+    """The radius to give the camera (headless.add_camera_and_lights) so a row of objects
+    along x, centred on the origin, fits the frame of the given aspect (width / height)."""
     import math
 
     xs, r = [], 0.0

@@ -44,7 +44,6 @@ def main(argv=None) -> int:
     from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls, build
     from turnabout.mesh import uniform_sphere_mesh
-
     from turnabout_blender import bake, check_objects, headless
 
     n_lon, n_lat = (int(v) for v in args.mesh.split("x"))

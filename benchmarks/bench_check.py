@@ -122,7 +122,7 @@ EVERSION_FRAMES = (150, 200, 240, 300, 330)
 
 
 def bench_eversion_frames(repeat: int) -> None:
-    from turnabout.eversion import Controls, mesh_for, evaluate
+    from turnabout.eversion import Controls, evaluate, mesh_for
 
     if "bpy" not in sys.modules:
         os.environ.setdefault("BLENDER_USER_RESOURCES", tempfile.mkdtemp(prefix="bench-"))

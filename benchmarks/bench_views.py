@@ -45,7 +45,6 @@ def main(argv=None) -> int:
 
     from turnabout.eversion import Controls, mesh_for
     from turnabout.mesh import uniform_sphere_mesh
-
     from turnabout_blender import headless
     from turnabout_blender import view_objects as vo
     from turnabout_blender.view_options import parse_parts

@@ -54,7 +54,6 @@ PREVIEW_FRAMES, KEY_STEP_PREVIEW = 240, 16
 
 def make_default(path: str) -> None:
     from turnabout.eversion import DEFAULT_FRAMES, Controls
-
     from turnabout_blender import headless
 
     headless.build_scene(
@@ -70,7 +69,6 @@ def make_default(path: str) -> None:
 def make_preview(path: str) -> None:
     from turnabout.eversion import Controls
     from turnabout.eversion.spacing import mesh_for
-
     from turnabout_blender import headless
 
     controls = Controls()
@@ -103,7 +101,6 @@ def make_broken(path: str) -> None:
     import bpy
     import numpy as np
     from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
-
     from turnabout_blender import bake, headless, look
 
     headless.empty_file()

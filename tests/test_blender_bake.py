@@ -92,7 +92,6 @@ def test_point_cache_plays_the_core_positions(tmp_path):
 @pytest.mark.usefixtures("blank")
 def test_a_cache_folder_whose_parent_is_missing_is_refused_before_any_data(tmp_path):
     from turnabout.output import OutputError
-
     from turnabout_blender import bake
 
     plan = plan_bake(Controls(), 4, 1, 1, small_mesh(), "POINT_CACHE")
@@ -260,7 +259,6 @@ def test_panel_mesh_spacing_gives_the_core_meshes():
 def test_the_panel_speaks_the_options_words_and_keeps_depth_in_range():
     from turnabout.commands.controls_options import PANEL_LABELS
     from turnabout.eversion import STAGE_NAMES, default_depth, depth_range
-
     from turnabout_blender.props import TURNABOUT_PG_settings
 
     props = TURNABOUT_PG_settings.bl_rna.properties

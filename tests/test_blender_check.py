@@ -42,7 +42,6 @@ def _open(path, tmp_path=None):
 @needs_checker
 def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
     from turnabout.check import Thresholds, check_animation
-
     from turnabout_blender.check_objects import MARKER_FAIL, MARKER_WORST
 
     ob = _open(BROKEN, tmp_path)
@@ -190,7 +189,6 @@ def test_the_check_reports_the_bakes_frame_times(tmp_path):
     from blender_support import small_mesh
     from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls
-
     from turnabout_blender import bake
 
     plan = plan_bake(Controls(), 6, 3, 1, small_mesh(), "SHAPE_KEYS")

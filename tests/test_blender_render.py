@@ -27,7 +27,6 @@ def _sides(rgba: np.ndarray):
 @pytest.mark.usefixtures("blank")
 def test_first_frame_shows_only_the_outer_colour_and_last_only_the_inner(tmp_path):
     from turnabout.eversion import Controls
-
     from turnabout_blender import headless
     from turnabout_blender.props import INNER_COLOUR, OUTER_COLOUR
 

@@ -20,7 +20,6 @@ SIZE = (160, 120)
 def _scene(frames=FRAMES, size=SIZE, samples=8):
     from turnabout.eversion import Controls
     from turnabout.mesh import uniform_sphere_mesh
-
     from turnabout_blender import headless
 
     ob = headless.build_scene(
@@ -55,7 +54,6 @@ def _project(scene, cam, points):
 
 def _band_vertices(ob, which=5, count=8):
     from turnabout.views import slices
-
     from turnabout_blender.view_objects import eversion_info, sphere_of
 
     mesh = sphere_of(ob, eversion_info(ob))
@@ -163,7 +161,6 @@ def _colour_masks(rgba):
 def test_level_markers_show_where_the_points_project_and_the_count_is_animated(tmp_path):
     from scipy import ndimage
     from turnabout.views.levels import level_points
-
     from turnabout_blender import headless, view_rigs
 
     scene, ob = _scene(frames=24, size=(200, 150), samples=16)
@@ -282,7 +279,6 @@ print("RESULT" + json.dumps(out))
 @pytest.mark.usefixtures("blank")
 def test_a_saved_file_plays_and_renders_the_rigs_without_the_addon(tmp_path):
     from turnabout.views.levels import level_points
-
     from turnabout_blender import headless, view_rigs
 
     scene, ob = _scene(frames=12, size=(64, 48), samples=2)
@@ -404,7 +400,6 @@ def test_stored_frames_read_back_as_the_depsgraph_evaluates_them(tmp_path, mode,
     from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls
     from turnabout.mesh import uniform_sphere_mesh
-
     from turnabout_blender import bake, view_rigs
 
     plan = plan_bake(Controls(), 11, 4, key_step, uniform_sphere_mesh(64, 16), mode)

@@ -296,7 +296,7 @@ def test_fast_path_matches_brute_force_on_random_triangles():
 def test_fast_path_matches_brute_force_on_an_eversion_frame_region():
     # mid-motion frame of a coarse corrugated eversion, cropped to the triangles near its
     # axis where many sheets cross
-    from turnabout.eversion import Controls, mesh_for, evaluate
+    from turnabout.eversion import Controls, evaluate, mesh_for
 
     c = Controls()
     mesh = mesh_for(c, n_lon=96, n_lat=40, spacing="even")

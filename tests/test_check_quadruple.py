@@ -169,7 +169,7 @@ def test_bad_input_is_refused(eps):
 
 @pytest.fixture(scope="module")
 def coarse_eversion():
-    from turnabout.eversion import Controls, mesh_for, evaluate
+    from turnabout.eversion import Controls, evaluate, mesh_for
 
     c = Controls()
     mesh = mesh_for(c, n_lon=64, n_lat=16, spacing="even")

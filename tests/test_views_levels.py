@@ -23,7 +23,7 @@ import pytest
 from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_chain
 from turnabout.check.metrics import gauss_map_degree
 from turnabout.check.topology import topology_report
-from turnabout.eversion import Controls, mesh_for, evaluate
+from turnabout.eversion import Controls, evaluate, mesh_for
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.meshfiles.npz import write_npz
 from turnabout.views.levels import (

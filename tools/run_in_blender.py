@@ -4,8 +4,8 @@
     blender -b -P tools/run_in_blender.py -- render out.blend frames/ --frames 1-120:10
     blender -b -P tools/run_in_blender.py -- demo
 
-Works from a source checkout (the core is taken from core/ and the add-on from addon/ when they are not installed)
-and with the bpy module (``python tools/run_in_blender.py -- demo``).
+Works from a source checkout (the core is taken from core/ and the add-on from addon/ when
+they are not installed) and with the bpy module (``python tools/run_in_blender.py -- demo``).
 """
 
 import importlib.util

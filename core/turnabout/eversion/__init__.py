@@ -8,7 +8,6 @@ Public API::
     ev = build(controls)                      # Eversion of DEFAULT_FRAMES (480) frames
 """
 
-from .frames import Eversion, build, evaluate
 from .controls import (
     DEFAULT_FRAMES,
     MAX_STRIPS,
@@ -21,9 +20,9 @@ from .controls import (
     default_frames,
     depth_range,
 )
+from .frames import Eversion, build, evaluate
 from .regularity import RegularityError, RegularityReport, quick_scan, scan
-from .spacing import check_resolution
-from .spacing import mesh_for
+from .spacing import check_resolution, mesh_for
 
 __all__ = [
     "DEFAULT_FRAMES",
