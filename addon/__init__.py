@@ -3,7 +3,7 @@
 A thin layer over the Blender-free core (the ``turnabout`` package): it moves arrays
 between Blender and the core, draws panels and reports. Importing this package does
 not import Blender; ``register()`` does, so the command line can reach
-``turnabout_blender.commands`` without the bpy module.
+``turnabout_blender.blender_commands`` without the bpy module.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ _CLASS_MODULES = (
     "props",
     "bake",
     "look",
-    "checking",
+    "check_objects",
     "export",
     "ui",
     "curves_panel",

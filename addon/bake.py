@@ -70,7 +70,7 @@ def key_offsets_for(frames: int, key_step: int) -> np.ndarray:
 
 def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode="SHAPE_KEYS"):
     """Check the frame layout and pick the mesh; raises BakeError naming the bad value."""
-    from turnabout.eversion import default_frames, default_mesh
+    from turnabout.eversion import default_frames, mesh_for
 
     frames = default_frames(controls.strips) if frames is None else frames
     if isinstance(frames, bool) or int(frames) != frames or frames < 2:
@@ -82,7 +82,7 @@ def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode=
     frames, key_step = int(frames), int(key_step)
     if mode == "POINT_CACHE":
         key_step = 1  # the cache holds one sample per frame
-    mesh = default_mesh(controls) if mesh is None else mesh
+    mesh = mesh_for(controls) if mesh is None else mesh
     offsets = key_offsets_for(frames, key_step)
     return BakePlan(
         controls, mesh, frames, int(frame_start), key_step, mode, offsets, offsets / (frames - 1)
@@ -92,13 +92,13 @@ def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode=
 def mesh_from_settings(controls, n_lon: int, n_lat: int, spacing: str = "bend"):
     """The sphere mesh for the given resolution and spacing ("bend" or "even"); 0 keeps the
     spacing's default count."""
-    from turnabout.eversion import default_mesh
+    from turnabout.eversion import mesh_for
 
     if (n_lon and n_lon < 3) or n_lat < 0:
         raise BakeError(
             f"mesh resolution: needs at least 3 longitude samples, got {n_lon} x {n_lat}"
         )
-    return default_mesh(controls, n_lon=n_lon or None, n_lat=n_lat or None, spacing=spacing)
+    return mesh_for(controls, n_lon=n_lon or None, n_lat=n_lat or None, spacing=spacing)
 
 
 # Point-cache bakes evaluate this many frames at a time.

@@ -1,7 +1,7 @@
 """Scenes and renders without the interface: camera, light, material, baked eversion.
 
 Used by the ``turnabout scene`` / ``render`` / ``demo`` commands, through the bpy module
-or inside ``blender -b -P addon/run_headless.py -- ...``.
+or inside ``blender -b -P tools/run_in_blender.py -- ...``.
 """
 
 from __future__ import annotations
@@ -69,7 +69,7 @@ def extent_of(ob) -> float:
     return r
 
 
-def add_stage(scene, radius: float = 1.0, aspect: float = 4 / 3):
+def add_camera_and_lights(scene, radius: float = 1.0, aspect: float = 4 / 3):
     """Camera aimed at the origin framing a ball of ``radius``, two lights, a dark world."""
     from mathutils import Vector
 
@@ -329,7 +329,7 @@ def build_scene(
     look.apply_look(ob, look_options or look_settings())
     bake.set_scene_range(scene, plan)
     scene.frame_set(plan.frame_start)
-    add_stage(scene, extent_of(ob), size[0] / size[1])
+    add_camera_and_lights(scene, extent_of(ob), size[0] / size[1])
     bpy.context.view_layer.objects.active = ob
     ob.select_set(True)
     return ob

@@ -108,7 +108,7 @@ def remove_stills(ob) -> None:
 
 
 def row_radius(objects, aspect: float) -> float:
-    """The radius to give the stage camera (headless.add_stage) so a row of objects along x,
+    """The radius to give the stage camera (headless.add_camera_and_lights) so a row of objects along x,
     centred on the origin, fits the frame of the given aspect (width / height)."""
     import math
 
@@ -121,7 +121,7 @@ def row_radius(objects, aspect: float) -> float:
             r = max(r, float(np.sqrt((p**2).sum(axis=1)).max()))
         xs.append(abs(o.location.x))
     half_width = (max(xs) if xs else 0.0) + r
-    # add_stage: 50 mm lens, 36 mm sensor along the longer side (Blender's AUTO fit)
+    # add_camera_and_lights: 50 mm lens, 36 mm sensor along the longer side (Blender's AUTO fit)
     short = math.atan(18.0 / 50.0 / max(aspect, 1.0 / aspect))
     long_ = math.atan(18.0 / 50.0)
     wide = half_width * math.sin(short) / (1.08 * math.tan(long_ if aspect >= 1 else short))

@@ -130,7 +130,7 @@ def stage_for_row(scene, objects, aspect: float):
     from . import headless
 
     radius = view_stills.row_radius(objects, aspect)
-    cam = headless.add_stage(scene, radius, aspect)
+    cam = headless.add_camera_and_lights(scene, radius, aspect)
     scale = max(radius, 1.0)  # the stage's lights are placed for a ball of radius 1
     for name in (headless.LIGHT_NAME, headless.FILL_NAME):
         light = bpy.data.objects.get(name)

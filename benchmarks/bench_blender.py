@@ -44,7 +44,7 @@ def main(argv=None) -> int:
     from turnabout.eversion import Controls, build
     from turnabout.mesh import uniform_sphere_mesh
 
-    from turnabout_blender import bake, checking, headless
+    from turnabout_blender import bake, check_objects, headless
 
     n_lon, n_lat = (int(v) for v in args.mesh.split("x"))
     sphere = uniform_sphere_mesh(n_lon, n_lat)
@@ -105,8 +105,8 @@ def main(argv=None) -> int:
     faces = ev.faces
 
     def in_blender():
-        steps = checking.check_steps(bpy.context, ob, 1, F, None, True)
-        return checking.run_to_completion(steps)
+        steps = check_objects.check_steps(bpy.context, ob, 1, F, None, True)
+        return check_objects.run_to_completion(steps)
 
     def core_only():
         return check_animation(P, faces, thresholds=Thresholds(), intersections=True)

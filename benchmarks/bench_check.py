@@ -119,7 +119,7 @@ EVERSION_FRAMES = (150, 200, 240, 300, 330)
 
 
 def bench_eversion_frames(repeat: int) -> None:
-    from turnabout.eversion import Controls, default_mesh, evaluate
+    from turnabout.eversion import Controls, mesh_for, evaluate
 
     if "bpy" not in sys.modules:
         os.environ.setdefault("BLENDER_USER_RESOURCES", tempfile.mkdtemp(prefix="bench-"))
@@ -130,7 +130,7 @@ def bench_eversion_frames(repeat: int) -> None:
         print("eversion frames: mathutils not importable: no Blender baseline")
         return
     c = Controls()
-    mesh = default_mesh(c)
+    mesh = mesh_for(c)
     P = evaluate(c, [f / 479 for f in EVERSION_FRAMES], mesh)
     faces = mesh.triangles()
     topo = MeshTopology(faces, P.shape[1])

@@ -17,7 +17,7 @@ import time
 
 import numpy as np
 from timing import best_of
-from turnabout.eversion import Controls, default_mesh, evaluate
+from turnabout.eversion import Controls, mesh_for, evaluate
 from turnabout.progress import ProgressBar
 from turnabout.views.levels import level_points, level_topology
 
@@ -29,7 +29,7 @@ def main(argv=None) -> None:
     args = ap.parse_args(argv)
 
     controls = Controls()
-    mesh = default_mesh(controls)
+    mesh = mesh_for(controls)
     times = np.linspace(0.0, 1.0, args.frames)
     bar = ProgressBar("evaluating frames", args.frames)
     positions = evaluate(controls, times, mesh, progress=bar).astype(np.float32)

@@ -14,7 +14,7 @@ from __future__ import annotations
 import argparse
 
 from timing import best_of
-from turnabout.eversion import Controls, default_mesh
+from turnabout.eversion import Controls, mesh_for
 from turnabout.views import surface_parts, symmetry_face_maps, symmetry_vertex_maps
 
 
@@ -23,7 +23,7 @@ def main(argv=None) -> int:
     p.add_argument("--repeat", type=int, default=5)
     args = p.parse_args(argv)
     ctl = Controls()
-    mesh = default_mesh(ctl)  # runs the fast scan once (cached)
+    mesh = mesh_for(ctl)  # runs the fast scan once (cached)
     base = best_of(mesh.triangles, args.repeat)
     parts = best_of(lambda: surface_parts(mesh, ctl.strips), args.repeat)
     vmaps = best_of(lambda: symmetry_vertex_maps(mesh, ctl.strips), args.repeat)

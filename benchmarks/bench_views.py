@@ -43,7 +43,7 @@ def main(argv=None) -> int:
     p.add_argument("--repeat", type=int, default=7)
     args = p.parse_args(argv)
 
-    from turnabout.eversion import Controls, default_mesh
+    from turnabout.eversion import Controls, mesh_for
     from turnabout.mesh import uniform_sphere_mesh
 
     from turnabout_blender import headless
@@ -52,7 +52,7 @@ def main(argv=None) -> int:
 
     controls = Controls()
     if args.mesh == "default":
-        sphere = default_mesh(controls)
+        sphere = mesh_for(controls)
     else:
         n_lon, n_lat = (int(v) for v in args.mesh.split("x"))
         sphere = uniform_sphere_mesh(n_lon, n_lat)

@@ -34,7 +34,7 @@ def _import_addon():
         import turnabout_blender  # noqa: F401
     except ModuleNotFoundError:
         spec = importlib.util.spec_from_file_location(
-            "_ta_run", os.path.join(REPO, "addon", "run_headless.py")
+            "_ta_run", os.path.join(REPO, "tools", "run_in_blender.py")
         )
         mod = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(mod)
@@ -137,7 +137,7 @@ def make_broken(path: str) -> None:
     scene.frame_start, scene.frame_end = BROKEN_RANGE
     scene.frame_set(1)
     headless.configure_render(scene, "cycles", (320, 240), 16)
-    headless.add_stage(scene, headless.extent_of(ob))
+    headless.add_camera_and_lights(scene, headless.extent_of(ob))
     bpy.context.view_layer.objects.active = ob
     ob.select_set(True)
     headless.save_blend(path)

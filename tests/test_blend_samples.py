@@ -2,7 +2,7 @@
 
 A sample passes when no frame fails the checker (warnings and notes do not count); a sample
 whose name says "broken" must fail somewhere. Every frame is read back through Blender
-(addon/checking.py), so frames blended between stored shapes are checked too.
+(addon/check_objects.py), so frames blended between stored shapes are checked too.
 """
 
 from __future__ import annotations
@@ -25,16 +25,16 @@ def _says_it_fails(name: str) -> bool:
 
 
 def _failing_frames(path: str) -> tuple[list[int], int]:
-    from turnabout_blender import checking, headless
+    from turnabout_blender import check_objects, headless
 
     bpy.ops.wm.open_mainfile(filepath=path, load_ui=False)
     headless.ensure_registered()
     scene = bpy.context.scene
     ob = bpy.context.active_object
-    steps = checking.check_steps(
+    steps = check_objects.check_steps(
         bpy.context, ob, scene.frame_start, scene.frame_end, None, intersections=True, workers=2
     )
-    outcome = checking.run_to_completion(steps)
+    outcome = check_objects.run_to_completion(steps)
     frames = [scene.frame_start + int(i) for i in outcome.report.failing_frames()]
     return frames, scene.frame_end - scene.frame_start + 1
 

@@ -223,7 +223,7 @@ def test_bake_over_the_memory_limit_is_refused_with_the_estimate():
 
 @pytest.mark.usefixtures("blank")
 def test_panel_mesh_spacing_gives_the_core_meshes():
-    from turnabout.eversion import default_mesh
+    from turnabout.eversion import mesh_for
 
     s = bpy.context.scene.turnabout
     set_small_build(s, frames=2, n_lon=0, n_lat=0)
@@ -231,7 +231,7 @@ def test_panel_mesh_spacing_gives_the_core_meshes():
         s.mesh_spacing = spacing
         bpy.ops.turnabout.add_eversion()
         ob = bpy.context.active_object
-        core = default_mesh(Controls(), spacing=spacing.lower())
+        core = mesh_for(Controls(), spacing=spacing.lower())
         assert len(ob.data.vertices) == core.n_vertices
         co = np.empty(len(ob.data.vertices) * 3, np.float32)
         ob.data.vertices.foreach_get("co", co)

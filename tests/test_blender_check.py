@@ -43,7 +43,7 @@ def _open(path, tmp_path=None):
 def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
     from turnabout.check import Thresholds, check_animation
 
-    from turnabout_blender.checking import MARKER_FAIL, MARKER_WORST
+    from turnabout_blender.check_objects import MARKER_FAIL, MARKER_WORST
 
     ob = _open(BROKEN, tmp_path)
     scene = bpy.context.scene
@@ -165,14 +165,14 @@ def test_an_unsaved_file_needs_a_report_folder():
 
 @pytest.mark.usefixtures("blank")
 def test_closing_the_check_midway_restores_the_frame_and_changes_nothing():
-    from turnabout_blender import checking
+    from turnabout_blender import check_objects
 
     bpy.ops.mesh.primitive_uv_sphere_add(segments=16, ring_count=8)
     scene = bpy.context.scene
     scene.frame_start, scene.frame_end = 1, 30
     scene.frame_set(7)
     before = counts()
-    steps = checking.check_steps(bpy.context, bpy.context.active_object, 1, 30, None)
+    steps = check_objects.check_steps(bpy.context, bpy.context.active_object, 1, 30, None)
     for _ in range(5):
         next(steps)
     steps.close()  # what ESC does in the interface

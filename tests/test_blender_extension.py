@@ -13,8 +13,11 @@ from blender_support import REPO, run_python
 
 pytestmark = pytest.mark.blender
 
-sys.path.insert(0, os.path.join(REPO, "addon"))
-import build as addon_build  # noqa: E402
+import importlib.util  # noqa: E402
+
+_spec = importlib.util.spec_from_file_location("extension_build", os.path.join(REPO, "build.py"))
+addon_build = importlib.util.module_from_spec(_spec)
+_spec.loader.exec_module(addon_build)
 
 INSTALL_AND_RUN = r"""
 import json, os, sys

@@ -13,7 +13,7 @@ pytestmark = pytest.mark.blender
 def test_a_marker_sits_at_the_frame_nearest_each_quadruple_point():
     from turnabout.check import check_animation
 
-    from turnabout_blender.checking import (
+    from turnabout_blender.check_objects import (
         MARKER_FAIL,
         MARKER_QUADRUPLE,
         CheckOutcome,

@@ -105,8 +105,8 @@ def test_bad_command_input_gets_a_clear_message(tmp_path, capsys, argv, message)
     assert not os.path.exists(tmp_path / "x.blend")
 
 
-def test_run_headless_script_writes_a_scene(tmp_path):
-    script = os.path.join(REPO, "addon", "run_headless.py")
+def test_the_in_blender_script_writes_a_scene(tmp_path):
+    script = os.path.join(REPO, "tools", "run_in_blender.py")
     blend = str(tmp_path / "via_script.blend")
     env = dict(os.environ, BLENDER_USER_RESOURCES=str(tmp_path / "user"))
     proc = subprocess.run(

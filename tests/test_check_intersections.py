@@ -296,10 +296,10 @@ def test_fast_path_matches_brute_force_on_random_triangles():
 def test_fast_path_matches_brute_force_on_an_eversion_frame_region():
     # mid-motion frame of a coarse corrugated eversion, cropped to the triangles near its
     # axis where many sheets cross
-    from turnabout.eversion import Controls, default_mesh, evaluate
+    from turnabout.eversion import Controls, mesh_for, evaluate
 
     c = Controls()
-    mesh = default_mesh(c, n_lon=96, n_lat=40, spacing="even")
+    mesh = mesh_for(c, n_lon=96, n_lat=40, spacing="even")
     P = evaluate(c, [0.5], mesh)[0]
     faces = mesh.triangles()
     centre = P[faces].mean(axis=1)

@@ -169,10 +169,10 @@ def test_bad_input_is_refused(eps):
 
 @pytest.fixture(scope="module")
 def coarse_eversion():
-    from turnabout.eversion import Controls, default_mesh, evaluate
+    from turnabout.eversion import Controls, mesh_for, evaluate
 
     c = Controls()
-    mesh = default_mesh(c, n_lon=64, n_lat=16, spacing="even")
+    mesh = mesh_for(c, n_lon=64, n_lat=16, spacing="even")
     return c, mesh, evaluate(c, [0.0], mesh)[0], mesh.triangles()
 
 

@@ -459,14 +459,14 @@ def _raise_interrupt(*a, **k):
 @pytest.mark.parametrize(
     "argv, module, attr",
     [
-        (["build", "--quiet"], "turnabout.commands.build", "build"),
+        (["build", "--quiet"], "turnabout.commands.build_command", "build"),
         (["check", "x.npz", "--quiet"], "turnabout.meshseq", "read_sequence"),
         (["curve", "info", "x.svg"], "turnabout.curves.files", "read_curves"),
         (["curve", "morph", "a.svg", "b.svg", "--out", "m.npz"], "turnabout.curves.files",
          "read_curve"),
-        (["scene", "x.blend"], "turnabout_blender.commands", "_bpy_or_message"),
-        (["render", "x.blend", "out"], "turnabout_blender.commands", "_bpy_or_message"),
-        (["demo"], "turnabout_blender.commands", "_bpy_or_message"),
+        (["scene", "x.blend"], "turnabout_blender.blender_commands", "_bpy_or_message"),
+        (["render", "x.blend", "out"], "turnabout_blender.blender_commands", "_bpy_or_message"),
+        (["demo"], "turnabout_blender.blender_commands", "_bpy_or_message"),
     ],  # fmt: skip
 )
 def test_ctrl_c_exits_130_with_one_line_in_every_command(
@@ -477,7 +477,7 @@ def test_ctrl_c_exits_130_with_one_line_in_every_command(
     monkeypatch.chdir(tmp_path)
     monkeypatch.setattr(importlib.import_module(module), attr, _raise_interrupt)
     if argv[0] == "build":  # get past the checks to the work
-        monkeypatch.setattr("turnabout.commands.build.default_mesh", lambda *a, **k: None)
+        monkeypatch.setattr("turnabout.commands.build_command.mesh_for", lambda *a, **k: None)
         monkeypatch.setattr("turnabout.eversion.regularity.quick_report", lambda *a, **k: None)
     assert main(argv) == 130
     err = capsys.readouterr().err.strip()
@@ -606,7 +606,7 @@ def test_exit_codes_of_scene_render_and_demo_and_render_range(tmp_path):
 def test_the_demo_bar_weights_each_frame_by_its_checking_cost():
     from turnabout.eversion import Controls
 
-    from turnabout_blender.commands import _DemoProgress, check_cost_per_frame
+    from turnabout_blender.blender_commands import _DemoProgress, check_cost_per_frame
 
     w = check_cost_per_frame(Controls(), 480)
     assert w.shape == (480,) and abs(w.sum() - 1.0) < 1e-12
@@ -650,7 +650,7 @@ def test_the_demo_folder_is_ignored_by_git():
 @pytest.mark.blender
 def test_the_extension_build_says_what_it_validated_and_with_what(tmp_path):
     proc = subprocess.run(
-        [sys.executable, str(REPO / "addon" / "build.py"), "--out", str(tmp_path)],
+        [sys.executable, str(REPO / "build.py"), "--out", str(tmp_path)],
         capture_output=True,
         text=True,
         env=_env(),

@@ -145,9 +145,10 @@ def _workspace(tmp_path: Path) -> Path:
     work = tmp_path / "work"
     work.mkdir()
     ignore = shutil.ignore_patterns("__pycache__", "*.pyc", "dist", "wheels")
-    for sub in ("addon", "core", "docs/examples"):
+    for sub in ("addon", "core", "tools", "docs/examples"):
         if (REPO / sub).is_dir():
             shutil.copytree(REPO / sub, work / sub, ignore=ignore)
+    shutil.copy2(REPO / "build.py", work / "build.py")
     return work
 
 

@@ -114,7 +114,7 @@ def test_too_coarse_resolution_and_too_few_frames_are_refused():
 
 
 def test_huge_resolutions_are_refused_before_anything_is_sampled():
-    from turnabout.eversion import default_mesh
+    from turnabout.eversion import mesh_for
 
     for kw, option in (
         ({"n_lat": 10**9}, "lat"),
@@ -122,7 +122,7 @@ def test_huge_resolutions_are_refused_before_anything_is_sampled():
         ({"n_lon": 8000, "n_lat": 4000}, "lon x lat"),
     ):
         with pytest.raises(ControlError, match=option):
-            default_mesh(Controls(), **kw)
+            mesh_for(Controls(), **kw)
 
 
 def test_same_inputs_give_byte_identical_npz(tmp_path):

@@ -8,7 +8,7 @@ import math
 import numpy as np
 import pytest
 from turnabout.cli import main
-from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, default_mesh
+from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, mesh_for
 from turnabout.eversion import spacing as S
 from turnabout.eversion.regularity import quick_report
 
@@ -23,7 +23,7 @@ def _gaps(mesh):
 @pytest.mark.parametrize("strips", [8, 12])
 def test_bend_mesh_repeats_one_strip_exactly_and_grades_gently(strips):
     ctl = Controls(strips=strips)
-    m = default_mesh(ctl)
+    m = mesh_for(ctl)
     per = m.n_lon // strips
     assert m.n_lon % strips == 0
     one = m.theta[:per]
@@ -42,7 +42,7 @@ def test_every_default_edge_meets_the_crease_aim_from_the_bend_profile(strips):
     # rate x edge length is the angle between the normals at its ends (first order)
     ctl = Controls(strips=strips)
     rep = quick_report(ctl)
-    m = default_mesh(ctl)
+    m = mesh_for(ctl)
     aim = math.radians(S.CREASE_AIM_DEG)
     per = m.n_lon // strips
     th = np.append(m.theta[:per], m.theta[0] + 2 * np.pi / strips)
@@ -60,15 +60,15 @@ def test_every_default_edge_meets_the_crease_aim_from_the_bend_profile(strips):
 
 def test_asked_for_counts_and_even_spacing():
     ctl = Controls()
-    m = default_mesh(ctl, n_lon=8 * 40, n_lat=80)
+    m = mesh_for(ctl, n_lon=8 * 40, n_lat=80)
     assert (m.n_lon, m.n_lat) == (320, 80)
-    even = default_mesh(ctl, spacing="even")
+    even = mesh_for(ctl, spacing="even")
     assert (even.n_lon, even.n_lat) == (S.EVEN_PER_STRIP * 8, S.EVEN_RINGS)
     assert np.allclose(np.diff(even.theta), 2 * np.pi / even.n_lon)
     with pytest.raises(ControlError, match="spacing"):
-        default_mesh(ctl, spacing="dense")
+        mesh_for(ctl, spacing="dense")
     with pytest.raises(ControlError, match="multiple of strips"):
-        default_mesh(ctl, n_lon=321)
+        mesh_for(ctl, n_lon=321)
 
 
 def test_default_build_passes_the_frame_check_at_default_resolution(tmp_path, capsys):
@@ -151,7 +151,7 @@ def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():
     # These points (and triple points the sampling puts on mesh edges) are facts of the
     # symmetric surface, not faults of the motion: notes, which leave the verdict alone.
     ctl = Controls()
-    mesh = default_mesh(ctl)
+    mesh = mesh_for(ctl)
     times = np.array([250, 296, 330]) / (DEFAULT_FRAMES - 1)
     rep = check_animation(evaluate(ctl, times, mesh), mesh.triangles(), times=times)
     for fr in rep.frames:
@@ -171,7 +171,7 @@ def test_default_build_mid_motion_frame_is_ok_with_notes_on_the_command_line(tmp
     from turnabout.eversion import evaluate
 
     ctl = Controls()
-    mesh = default_mesh(ctl)
+    mesh = mesh_for(ctl)
     t = np.array([296 / (DEFAULT_FRAMES - 1)])
     path = meshseq.write_npz(tmp_path / "mid.npz", evaluate(ctl, t, mesh), mesh.triangles())
     assert main(["check", str(path), "--json", str(tmp_path / "mid.json")]) == 0

@@ -24,7 +24,7 @@ from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_ch
 from turnabout import meshseq
 from turnabout.check.metrics import gauss_map_degree
 from turnabout.check.topology import topology_report
-from turnabout.eversion import Controls, default_mesh, evaluate
+from turnabout.eversion import Controls, mesh_for, evaluate
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.views.levels import (
     BOWL,
@@ -52,7 +52,7 @@ def _banchoff_consistent(lp: LevelPoints) -> None:
 @pytest.fixture(scope="module")
 def eversion_frames():
     controls = Controls()
-    mesh = default_mesh(controls)
+    mesh = mesh_for(controls)
     times = np.linspace(0.0, 1.0, 25)  # 24 steps, includes t = 0.5
     assert np.any(times == 0.5)
     return evaluate(controls, times, mesh), mesh.triangles()

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from turnabout.eversion import Controls, default_mesh, evaluate
+from turnabout.eversion import Controls, mesh_for, evaluate
 from turnabout.eversion.construction import WAVE_END_LAT
 from turnabout.mesh import uniform_sphere_mesh
 from turnabout.views import (
@@ -24,7 +24,7 @@ TIMES = np.append(np.linspace(0.0, 1.0, 24), 0.5)
 
 @pytest.fixture(scope="module")
 def mesh():
-    return default_mesh(CTL)
+    return mesh_for(CTL)
 
 
 @pytest.fixture(scope="module")
@@ -42,7 +42,7 @@ def _is_permutation(rows):
 
 
 def test_the_default_mesh_counts_are_kept():
-    m = default_mesh(CTL)
+    m = mesh_for(CTL)
     assert (m.n_lon // N, m.n_lat, m.n_vertices) == (60, 98, 47042)
 
 
@@ -90,7 +90,7 @@ def test_triangles_map_to_triangles_with_the_same_diagonals(mesh, maps):
     ],
 )
 def test_even_and_asked_for_meshes_share_the_symmetry(kwargs):
-    m = default_mesh(CTL, **kwargs)
+    m = mesh_for(CTL, **kwargs)
     vmap = symmetry_vertex_maps(m, N)
     fmap = symmetry_face_maps(m, N)
     assert _is_permutation(vmap) and _is_permutation(fmap)

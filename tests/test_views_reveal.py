@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from turnabout.eversion import STAGE_NAMES, Controls, default_mesh
+from turnabout.eversion import STAGE_NAMES, Controls, mesh_for
 from turnabout.mesh import uniform_sphere_mesh
 from turnabout.views import (
     ViewError,
@@ -23,7 +23,7 @@ REVEALS = np.linspace(0.0, 1.0, 101)
 
 @pytest.fixture(scope="module")
 def mesh():
-    return default_mesh(CTL)
+    return mesh_for(CTL)
 
 
 def test_key_moments_are_the_middle_and_end_of_every_stage():

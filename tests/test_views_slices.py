@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 import pytest
-from turnabout.eversion import DEFAULT_FRAMES, Controls, default_mesh, evaluate
+from turnabout.eversion import DEFAULT_FRAMES, Controls, mesh_for, evaluate
 from turnabout.mesh import SphereMesh, uniform_sphere_mesh
 from turnabout.views import (
     ViewError,
@@ -22,7 +22,7 @@ SMALL = uniform_sphere_mesh(8 * 16, 47)
 
 @pytest.fixture(scope="module")
 def mesh():
-    return default_mesh(CTL)
+    return mesh_for(CTL)
 
 
 def test_bands_tile_the_sphere_or_sit_centred_in_their_slices():

@@ -9,15 +9,15 @@ import sys
 # (command name, module path). Modules that are missing (an optional part not
 # installed) are skipped with a note in --help rather than breaking the CLI.
 COMMAND_MODULES: tuple[tuple[str, str], ...] = (
-    ("build", "turnabout.commands.build"),
-    ("check", "turnabout.commands.check"),
-    ("curve", "turnabout.commands.curve"),
-    ("sweep", "turnabout.commands.sweep"),
-    ("tune", "turnabout.commands.sweep"),
+    ("build", "turnabout.commands.build_command"),
+    ("check", "turnabout.commands.check_command"),
+    ("curve", "turnabout.commands.curve_command"),
+    ("sweep", "turnabout.commands.sweep_command"),
+    ("tune", "turnabout.commands.sweep_command"),
     # Blender-side commands: imported only when asked for.
-    ("scene", "turnabout_blender.commands"),
-    ("render", "turnabout_blender.commands"),
-    ("demo", "turnabout_blender.commands"),
+    ("scene", "turnabout_blender.blender_commands"),
+    ("render", "turnabout_blender.blender_commands"),
+    ("demo", "turnabout_blender.blender_commands"),
 )
 
 BLENDER_COMMANDS = {"scene", "render", "demo"}

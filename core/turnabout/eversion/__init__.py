@@ -3,12 +3,12 @@
 Public API::
 
     controls = Controls(strips=8)             # validated artistic controls
-    mesh = default_mesh(controls)             # SphereMesh sampled where the waves bend
+    mesh = mesh_for(controls)             # SphereMesh sampled where the waves bend
     P = evaluate(controls, times, mesh)       # (frames, V, 3) float64 positions
     ev = build(controls)                      # Eversion of DEFAULT_FRAMES (480) frames
 """
 
-from .build import Eversion, build, evaluate
+from .frames import Eversion, build, evaluate
 from .controls import (
     DEFAULT_FRAMES,
     MAX_STRIPS,
@@ -23,7 +23,7 @@ from .controls import (
 )
 from .regularity import RegularityError, RegularityReport, quick_scan, scan
 from .spacing import check_resolution
-from .spacing import mesh_for as default_mesh
+from .spacing import mesh_for
 
 __all__ = [
     "DEFAULT_FRAMES",
@@ -37,7 +37,7 @@ __all__ = [
     "build",
     "default_depth",
     "default_frames",
-    "default_mesh",
+    "mesh_for",
     "depth_range",
     "evaluate",
     "check_resolution",

@@ -257,7 +257,7 @@ def _match(values: np.ndarray, targets: np.ndarray, span: float | None, what: st
     if bad.any() or np.unique(best).size != best.size:
         raise ViewError("mesh", f"its {what} are not symmetric under the eversion's half-turn "
                         "(theta -> pi / strips - theta, lat -> -lat); meshes from "
-                        "eversion.default_mesh keep it for both spacings")  # fmt: skip
+                        "eversion.mesh_for keep it for both spacings")  # fmt: skip
     return best.astype(np.int64)
 
 

@@ -1,7 +1,7 @@
 """Build the installable Turnabout extension zip, validate it, optionally install it.
 
-    python addon/build.py                      # -> dist/turnabout-<version>.zip
-    python addon/build.py --install USER_DIR   # also install + enable into that Blender user folder
+    python build.py                      # -> dist/turnabout-<version>.zip
+    python build.py --install USER_DIR   # also install + enable into that Blender user folder
 
 The Blender-free core (core/turnabout) is bundled as a pure-Python wheel listed in the
 manifest. Building and validating use Blender's own extension tool where it is
@@ -24,8 +24,8 @@ import sys
 import tempfile
 import zipfile
 
-HERE = os.path.dirname(os.path.abspath(__file__))
-REPO = os.path.dirname(HERE)
+REPO = os.path.dirname(os.path.abspath(__file__))
+ADDON = os.path.join(REPO, "addon")
 CORE = os.path.join(REPO, "core", "turnabout")
 MANIFEST = "blender_manifest.toml"
 
@@ -105,7 +105,7 @@ def find_blender_ext(explicit: str | None = None) -> str:
 
 def _stage_sources(stage: str, wheel: str) -> None:
     shutil.copytree(
-        HERE, stage, ignore=shutil.ignore_patterns("__pycache__", "*.pyc", "wheels", "dist")
+        ADDON, stage, ignore=shutil.ignore_patterns("__pycache__", "*.pyc", "wheels", "dist")
     )
     os.makedirs(os.path.join(stage, "wheels"))
     shutil.copy2(wheel, os.path.join(stage, "wheels"))

@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..eversion import ControlError, build, default_mesh
+from ..eversion import ControlError, build, mesh_for
 from ..eversion.regularity import QUICK_GRID, scan_grid_problem
 from ..output import OutputError, check_output_file, check_output_folder, check_suffix
 from ..progress import Cancelled, ProgressBar
@@ -125,7 +125,7 @@ def run(args) -> int:
         n_scan = scan_times(controls, QUICK_GRID[2]).size
         with ProgressBar("regularity check", n_scan, enabled=not args.quiet) as bar:
             quick_report(controls, progress=bar)
-        mesh = default_mesh(controls, choice.lon, choice.lat, spacing=choice.spacing)
+        mesh = mesh_for(controls, choice.lon, choice.lat, spacing=choice.spacing)
         frames = choice.frame_count
         with ProgressBar("building", frames, enabled=not args.quiet) as bar:
             ev = build(controls, frames=frames, mesh=mesh, progress=bar)

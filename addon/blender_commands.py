@@ -157,7 +157,7 @@ def _bpy_or_message(name: str) -> bool:
         print(
             f"turnabout {name}: needs Blender as a Python module (Python 3.11): "
             'python3.11 -m pip install -e ".[blender]", or run inside Blender with '
-            "blender -b -P addon/run_headless.py -- " + name,
+            "blender -b -P tools/run_in_blender.py -- " + name,
             file=sys.stderr,
         )
         return False
@@ -170,9 +170,9 @@ def _choice(args):
 
 
 def _mesh(choice):
-    from turnabout.eversion import default_mesh
+    from turnabout.eversion import mesh_for
 
-    return default_mesh(choice.controls, choice.lon, choice.lat, spacing=choice.spacing)
+    return mesh_for(choice.controls, choice.lon, choice.lat, spacing=choice.spacing)
 
 
 def _fail(name: str, exc: Exception) -> int:
@@ -348,7 +348,7 @@ def run_demo(args) -> int:
     from turnabout.output import check_output_folder
     from turnabout.progress import ProgressBar
 
-    from . import checking, headless
+    from . import check_objects, headless
 
     out_dir = os.path.abspath(args.out)
     blend = os.path.join(out_dir, "eversion.blend")
@@ -361,7 +361,7 @@ def run_demo(args) -> int:
         headless.check_render_settings(args.engine, args.size, args.samples)
         check_output_folder(args.out, "--out")
         os.makedirs(out_dir, exist_ok=True)
-        checking.ensure_writable(out_dir)
+        check_objects.ensure_writable(out_dir)
         controls = choice.controls
         frames = choice.frame_count
         mesh = _mesh(choice)
@@ -382,7 +382,7 @@ def run_demo(args) -> int:
             )
             phase_s["bake"] = time.perf_counter() - t
             scene = bpy.context.scene
-            steps = checking.check_steps(
+            steps = check_objects.check_steps(
                 bpy.context,
                 ob,
                 scene.frame_start,
@@ -394,11 +394,11 @@ def run_demo(args) -> int:
             )
             names = {"reading frames": "read", "checking": "check", "writing": "check"}
             t = time.perf_counter()
-            outcome = checking.run_to_completion(
+            outcome = check_objects.run_to_completion(
                 steps, lambda st, d, n: step(names[st], d if st != "writing" else frames, n)
             )
             phase_s["check"] = time.perf_counter() - t
-            checking.apply_outcome(bpy.context, ob, outcome, scene.turnabout)
+            check_objects.apply_outcome(bpy.context, ob, outcome, scene.turnabout)
             headless.save_blend(blend)
             previews = []
             t = time.perf_counter()
@@ -440,7 +440,7 @@ def run_demo(args) -> int:
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Entry point for ``blender -b -P addon/run_headless.py -- COMMAND ...``."""
+    """Entry point for ``blender -b -P tools/run_in_blender.py -- COMMAND ...``."""
     parser = argparse.ArgumentParser(prog="turnabout", description="Turnabout's Blender commands.")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in HELP:
