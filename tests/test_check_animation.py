@@ -7,6 +7,7 @@ import json
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.check import (
     AnimationReport,
     CheckInputError,
@@ -176,8 +177,7 @@ def test_csv_report_has_one_row_per_frame(tmp_path, push_through):
 
 
 def test_plot_is_a_png_with_the_failing_frames_shaded(tmp_path, push_through):
-    import matplotlib.image as mpimg
-
+    mpimg = require("matplotlib.image")
     _, _, _, rep = push_through
     img = mpimg.imread(rep.write_plot(tmp_path / "r.png"))
     assert img.shape == (1232, 880, 4)  # 8 x 11.2 inches at 110 dpi (report.write_plot)

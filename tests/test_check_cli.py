@@ -8,6 +8,7 @@ import sys
 
 import numpy as np
 import pytest
+from references import require
 from turnabout import meshseq
 from turnabout.cli import main
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
@@ -34,6 +35,7 @@ def push(tmp_path, sphere):
 
 
 def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, capsys):
+    mpimg = require("matplotlib.image")  # the 'plot' extra writes the PNG
     out = tmp_path / "out"
     out.mkdir()  # output folders are not created: a typo in a path is refused
     code = main(["check", str(breathing), "--json", str(out / "r.json"),
@@ -42,8 +44,6 @@ def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, ca
     data = json.loads((out / "r.json").read_text())
     assert data["verdict"] in ("ok", "warn") and data["everted"] is False
     assert (out / "r.csv").read_text().count("\n") == 9
-    import matplotlib.image as mpimg  # the 'plot' extra writes the PNG
-
     img = mpimg.imread(out / "r.png")
     assert img.shape == (1232, 880, 4)  # 8 x 11.2 inches at 110 dpi (report.write_plot)
     assert np.sum(np.all(img[..., :3] < 0.1, axis=-1)) > 1000  # the curves and text

@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from references import require
 from turnabout import meshseq
 from turnabout.check import check_animation
 from turnabout.cli import main
@@ -188,8 +189,7 @@ def _shaded_columns(img: np.ndarray, tint: np.ndarray) -> int:
 
 
 def test_plot_png_decodes_to_a_figure_shading_exactly_the_failing_frames(tmp_path, push, sphere):
-    import matplotlib.image as mpimg
-
+    mpimg = require("matplotlib.image")
     path, _ = push
     out = tmp_path / "push.png"
     js = tmp_path / "push.json"

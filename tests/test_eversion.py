@@ -6,6 +6,7 @@ import os
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.eversion import ControlError, Controls, build, check_resolution, evaluate
 from turnabout.eversion import construction as C
@@ -164,8 +165,9 @@ def test_frame_folder_outputs_read_back_as_the_npz_geometry(tmp_path, fmt):
     # The frames read back by trimesh (an outside reader) and by ours carry the npz output's
     # positions to the written precision (9 significant digits, float32 in binary PLY) and
     # its faces; the first and last frames are the unit sphere.
-    import trimesh
     from turnabout.meshseq import read_sequence
+
+    trimesh = require("trimesh")
 
     args = ["build", "--quiet", "--frames", "2", "--lon", "64", "--lat", "17"]
     assert main([*args, "--format", fmt, "--out", str(tmp_path / fmt)]) == 0
@@ -194,7 +196,7 @@ def test_guide_closes_on_the_axis_at_the_first_zero_of_j0():
     # The guide's ends lie on the axis iff J0(X) = 0; X is the first zero of J0
     # (Abramowitz and Stegun, Handbook of Mathematical Functions, 1964, table 9.5),
     # checked against scipy's Bessel zeros.
-    special = pytest.importorskip("scipy.special")
+    special = require("scipy.special")
     j01 = special.jn_zeros(0, 1)[0]
     assert np.isclose(C.J0_FIRST_ZERO, j01, rtol=0, atol=1e-15)
     # the closure solver, given chi = -X sin(2 lat), finds the same root

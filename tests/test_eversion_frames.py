@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from scipy.optimize import brentq
+from references import require
 from turnabout.eversion import Controls
 from turnabout.eversion.construction import FrameEvaluator, surface
 from turnabout.mesh import uniform_sphere_mesh
+
+brentq = require("scipy.optimize").brentq
 
 MID_TIMES = (0.2, 0.3, 0.41, 0.5, 0.6, 0.7, 0.85)
 # an odd number of longitudes, so no sample sits on a symmetry line of the strips
@@ -148,7 +150,7 @@ def test_the_docs_closing_amplitude_is_the_first_zero_of_j0_for_the_plain_shape(
     # The reference's root finder against a published value: for chi = -X sin(2 lat) the
     # mean of cos(chi) is J0(X) (Jacobi-Anger), whose first zero is 2.404825557695773
     # (Abramowitz and Stegun, "Handbook of Mathematical Functions", 1964, table 9.5).
-    from scipy.special import jn_zeros
+    jn_zeros = require("scipy.special").jn_zeros
 
     lat = np.pi * np.arange(2048) / 2048
     root = brentq(lambda x: np.mean(np.cos(-x * np.sin(2 * lat))), 2.0, 3.0, xtol=1e-15)

@@ -7,6 +7,7 @@ import math
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, mesh_for
 from turnabout.eversion import spacing as S
@@ -154,8 +155,7 @@ def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():
     mesh = mesh_for(ctl)
     times = np.array([250, 296, 330]) / (DEFAULT_FRAMES - 1)
     rep = check_animation(evaluate(ctl, times, mesh), mesh.triangles(), times=times)
-    from scipy.spatial import cKDTree
-
+    cKDTree = require("scipy.spatial").cKDTree
     n = ctl.strips
     turn = 2 * np.pi / n  # docs/eversion.md section 6: every frame has the dihedral symmetry
     a = np.pi / (2 * n)  # of order 2n, the turn by 2 pi / n and the half-turn about the

@@ -16,6 +16,7 @@ import sys
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.eversion import Controls
 from turnabout.eversion.regularity import MIN_RATIO, scan
@@ -44,9 +45,7 @@ def _points():
 
 
 def _needs_dask():
-    return pytest.importorskip(
-        "distributed", reason="Dask runs need the 'sweep' extra (dask[distributed])"
-    )
+    return require("distributed")  # Dask runs need the 'sweep' extra
 
 
 # --- the grid ------------------------------------------------------------------------------
@@ -232,9 +231,8 @@ def test_the_command_reports_what_it_computed_and_reused(tmp_path, capsys):
 
 
 def test_the_plots_are_pngs_of_the_grid(tmp_path):
-    import matplotlib.image as mpimg
-    from matplotlib import colormaps
-
+    mpimg = require("matplotlib.image")
+    colormaps = require("matplotlib").colormaps
     out = _sweep(tmp_path, "p", "--workers", "2", "--plot")
     for name, cmap in (("regular.png", "viridis"), ("curvature.png", "magma")):
         img = mpimg.imread(out / name)
