@@ -239,3 +239,54 @@ def test_lattice_octahedra_warn_of_touching_faces_and_unmatched_triple_points(
         causes = _causes(check_animation(q, f).frames[0])
         assert "unmatched triple point" not in causes and "touching faces" not in causes
         assert "triple-point parity" not in causes
+
+
+def _four_symmetric_spheres():
+    """Four unit spheres, each the previous one turned a quarter turn about z (exact in
+    floating point), all through the origin and through (0, 0, 2h): two points where four
+    sheets meet (elementary geometry; as in test_check_intersections)."""
+    p, f = surfaces.round_sphere(24)
+    p = p @ _turn(0.4, 0.9).T
+    quarter = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
+    parts = [p + np.array([0.8, 0.0, 0.6])]
+    for _ in range(3):
+        parts.append(parts[-1] @ quarter.T)
+    return np.vstack(parts), np.vstack([f + k * len(p) for k in range(4)])
+
+
+@pytest.mark.parametrize(
+    ("keep", "extra", "odd"),
+    [
+        ([0, 1], 0, False),  # the real frame: 2 x C(4, 3) = 8 triple points, chi = 8
+        ([0], 0, False),  # one fourfold point alone: 4, still even
+        ([0, 1], 1, True),  # one triple point too many: 9
+        ([0], 1, True),  # 5
+    ],
+)
+def test_parity_counts_a_fourfold_point_as_four_triple_points(keep, extra, odd):
+    # Banchoff (Proc. AMS 1974): a generic immersed closed surface has a number of triple
+    # points congruent to chi mod 2. A point where k sheets meet splits into C(k, 3) triple
+    # points under a generic perturbation, so a fourfold point counts 4, not 1. The judge is
+    # fed the real frame's intersections with points removed or one generic triple point
+    # (three detections) added: the parity warning fires exactly when the count is odd.
+    from dataclasses import replace
+
+    from turnabout.check import judge_frame
+    from turnabout.check.topology import topology_report
+
+    p, f = _four_symmetric_spheres()
+    topo = MeshTopology(f, len(p))
+    rep = topology_report(topo)
+    assert rep.is_manifold and rep.euler_characteristic == 8  # four spheres
+    fm = frame_metrics(p, topo, reference_frame(p, topo))
+    real = self_intersections(p, topo)
+    assert list(real.triple_detections) == [12, 12]  # two fourfold points
+    pts, tf, det = real.triple_points[keep], real.triple_faces[keep], real.triple_detections[keep]
+    if extra:
+        pts = np.vstack([pts, [[5.0, 5.0, 5.0]]])
+        tf = np.vstack([tf, tf[:1]])
+        det = np.append(det, 3)
+    fed = replace(real, triple_points=pts, triple_faces=tf, triple_detections=det)
+    fr = judge_frame(0, p, fm, topo, Thresholds(), 8, True, True, fed)
+    assert fr.singular_point_count == 0 and fr.degenerate_pairs == 0
+    assert ("triple-point parity" in _causes(fr)) == odd, fr.reasons
