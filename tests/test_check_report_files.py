@@ -96,12 +96,12 @@ def _assert_matches_docs(data: dict) -> None:
     assert {"schema", "verdict", "frames", "topology"} <= set(top)  # the tables were found
     assert {"frame", "reasons", "triple_point_count"} <= set(per_frame)
     # every documented field present with its documented type; nothing undocumented
-    assert set(data) == set(top), (set(data) ^ set(top))
+    assert set(data) == set(top), set(data) ^ set(top)
     for key, (type_text, _) in top.items():
         assert _type_ok(type_text, data[key]), (key, type_text, data[key])
     assert data["schema"] == "turnabout.check/1"
     for fr in data["frames"]:
-        assert set(fr) == set(per_frame), (set(fr) ^ set(per_frame))
+        assert set(fr) == set(per_frame), set(fr) ^ set(per_frame)
         for key, (type_text, _) in per_frame.items():
             assert _type_ok(type_text, fr[key]), (key, type_text, fr[key])
         assert set(fr["worst_element"]) == _listed_fields(per_frame["worst_element"][1])
