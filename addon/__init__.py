@@ -16,6 +16,7 @@ _CLASS_MODULES = (
     "bake",
     "look",
     "check_objects",
+    "clear_check",
     "export",
     "ui",
     "curves_panel",

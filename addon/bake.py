@@ -9,122 +9,32 @@ Two ways to store it, both playing and rendering with the add-on uninstalled:
   (a small .blend for long shots).
 
 Re-building replaces the object's mesh in place and frees the old mesh, its shape
-keys and their action, so no orphan data is left behind.
+keys and their action, so no orphan data is left behind. The plan (frames, key layout,
+memory estimate, cache file name) and the PC2 writer live in ``turnabout.baking``; this
+module moves the planned shapes into Blender data.
 """
 
 from __future__ import annotations
 
 import json
-import os
-import tempfile
-from dataclasses import dataclass
 
 import bpy
 import numpy as np
 from bpy.props import StringProperty
+from turnabout.baking.plan import (
+    CACHE_CHUNK,
+    BakeError,
+    BakePlan,
+    cache_file_path,
+    mesh_from_settings,
+    plan_bake,
+    refuse_if_too_big,
+)
 
 PROP_TAG = "turnabout"  # object custom property holding the build settings (JSON)
 ACTION_SUFFIX = " eval time"
 MODIFIER_NAME = "Turnabout cache"
 GUIDE_ATTRIBUTE = "turnabout_guide"
-PC2_HEADER = b"POINTCACHE2\0"
-
-
-class BakeError(ValueError):
-    """A bake request that cannot be carried out; the message says why and what is allowed."""
-
-
-@dataclass(frozen=True)
-class BakePlan:
-    """What to bake: the validated controls, the sphere mesh, and the frame layout.
-
-    key_offsets : (K,) int64, frame offsets from ``frame_start`` of the stored shapes
-    times : (K,) float64, eversion time in [0, 1] of each stored shape
-    """
-
-    controls: object
-    mesh: object
-    frames: int
-    frame_start: int
-    key_step: int
-    mode: str
-    key_offsets: np.ndarray
-    times: np.ndarray
-
-    @property
-    def n_keys(self) -> int:
-        return int(self.key_offsets.shape[0])
-
-    @property
-    def n_vertices(self) -> int:
-        return int(self.mesh.n_vertices)
-
-
-def key_offsets_for(frames: int, key_step: int) -> np.ndarray:
-    """Frame offsets of the stored shapes: every ``key_step`` frames plus the last frame."""
-    offsets = np.arange(0, frames, key_step, dtype=np.int64)
-    if offsets[-1] != frames - 1:
-        offsets = np.append(offsets, frames - 1)
-    return offsets
-
-
-def plan_bake(controls, frames=None, frame_start=1, key_step=1, mesh=None, mode="SHAPE_KEYS"):
-    """Check the frame layout and pick the mesh; raises BakeError naming the bad value."""
-    from turnabout.eversion import default_frames, mesh_for
-
-    frames = default_frames(controls.strips) if frames is None else frames
-    if isinstance(frames, bool) or int(frames) != frames or frames < 2:
-        raise BakeError(f"frames: must be an integer of at least 2, got {frames!r}")
-    if isinstance(key_step, bool) or int(key_step) != key_step or key_step < 1:
-        raise BakeError(f"key step: must be an integer of at least 1, got {key_step!r}")
-    if mode not in ("SHAPE_KEYS", "POINT_CACHE"):
-        raise BakeError(f"store as: must be SHAPE_KEYS or POINT_CACHE, got {mode!r}")
-    frames, key_step = int(frames), int(key_step)
-    if mode == "POINT_CACHE":
-        key_step = 1  # the cache holds one sample per frame
-    mesh = mesh_for(controls) if mesh is None else mesh
-    offsets = key_offsets_for(frames, key_step)
-    return BakePlan(
-        controls, mesh, frames, int(frame_start), key_step, mode, offsets, offsets / (frames - 1)
-    )
-
-
-def mesh_from_settings(controls, n_lon: int, n_lat: int, spacing: str = "bend"):
-    """The sphere mesh for the given resolution and spacing ("bend" or "even"); 0 keeps the
-    spacing's default count."""
-    from turnabout.eversion import mesh_for
-
-    if (n_lon and n_lon < 3) or n_lat < 0:
-        raise BakeError(
-            f"mesh resolution: needs at least 3 longitude samples, got {n_lon} x {n_lat}"
-        )
-    return mesh_for(controls, n_lon=n_lon or None, n_lat=n_lat or None, spacing=spacing)
-
-
-# Point-cache bakes evaluate this many frames at a time.
-CACHE_CHUNK = 16
-
-
-def estimated_bytes(plan: BakePlan) -> int:
-    """Peak memory of the bake in bytes (core float64 evaluation plus float32 storage)."""
-    per_shape = plan.n_vertices * 3 * (8 + 4)
-    if plan.mode == "POINT_CACHE":
-        held = min(plan.n_keys, CACHE_CHUNK)
-        return held * per_shape
-    # evaluated block + Blender's own copy in the key blocks
-    return plan.n_keys * (per_shape + plan.n_vertices * 3 * 4)
-
-
-def refuse_if_too_big(plan: BakePlan, limit_mb: float) -> int:
-    """Raise BakeError with the figure when the estimate exceeds ``limit_mb``; return the bytes."""
-    need = estimated_bytes(plan)
-    if need > limit_mb * 1e6:
-        raise BakeError(
-            f"baking would need about {need / 1e6:.0f} MB ({plan.n_keys} shapes x "
-            f"{plan.n_vertices} vertices), over the memory limit of {limit_mb:.0f} MB; "
-            "key less often, use a coarser mesh, store as a point cache or raise the limit"
-        )
-    return need
 
 
 # ----------------------------------------------------------------------------- mesh
@@ -215,52 +125,6 @@ def _write_shape_keys(ob, plan: BakePlan, positions: np.ndarray, progress) -> No
     key.eval_time = float(positions_on_axis[0])
 
 
-def write_pc2(path: str, chunks, n_points: int, n_samples: int, start: float = 0.0) -> None:
-    """Write a PC2 point cache from an iterable of (k, n_points, 3) float32 blocks.
-
-    Layout (little-endian): the 12-byte signature, int32 version 1, int32 points,
-    float32 start, float32 sampling rate, int32 samples; then float32 xyz per point per
-    sample. Written to a temporary file in the same folder, then renamed.
-    """
-    from turnabout.meshseq import atomic_write_bytes
-
-    def blocks():
-        yield PC2_HEADER
-        yield np.array([1, n_points], "<i4").tobytes()
-        yield np.array([start, 1.0], "<f4").tobytes()
-        yield np.array([n_samples], "<i4").tobytes()
-        written = 0
-        for block in chunks:
-            yield np.ascontiguousarray(block, "<f4").tobytes()
-            written += len(block)
-        if written != n_samples:  # raised inside the write: the temporary file goes
-            raise BakeError(f"point cache: wrote {written} samples, expected {n_samples}")
-
-    atomic_write_bytes(path, blocks())
-
-
-def cache_path_for(ob_name: str, cache_dir: str) -> str:
-    """Absolute path of the object's PC2 file; BakeError when the folder cannot be resolved."""
-    if cache_dir.startswith("//") and not bpy.data.filepath:
-        raise BakeError(
-            "cache folder: a path relative to the .blend ('//') needs the .blend saved first; "
-            "save it or choose an absolute folder"
-        )
-    folder = bpy.path.abspath(cache_dir)
-    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in ob_name)
-    return os.path.join(folder, f"{safe}.pc2")
-
-
-def _ensure_writable_folder(folder: str, what: str) -> None:
-    try:
-        os.makedirs(folder, exist_ok=True)
-        fd, probe = tempfile.mkstemp(dir=folder, suffix=".probe")
-        os.close(fd)
-        os.remove(probe)
-    except OSError as exc:
-        raise BakeError(f"{what}: cannot write to {folder!r} ({exc.strerror or exc})") from None
-
-
 def _free_mesh(me) -> None:
     """Remove a mesh no longer used, with its shape keys' action."""
     key = me.shape_keys
@@ -295,7 +159,9 @@ def bake_eversion(
     Everything that can be refused (memory, cache folder) is checked before any Blender
     data is made; on an error the file is left as it was. Returns the object.
     """
+    from turnabout.baking.pc2 import write_pc2
     from turnabout.eversion import evaluate
+    from turnabout.output import make_output_folder, resolve_blend_relative
     from turnabout.progress import no_progress
 
     progress = progress or no_progress
@@ -303,8 +169,10 @@ def bake_eversion(
     ob_name = ob.name if ob is not None else name
     pc2 = None
     if plan.mode == "POINT_CACHE":
-        pc2 = cache_path_for(ob_name, cache_dir)
-        _ensure_writable_folder(os.path.dirname(pc2), "cache folder")
+        folder = resolve_blend_relative(cache_dir, bpy.data.filepath, "cache folder")
+        make_output_folder(folder, "cache folder")
+        # the folder as given (links unresolved), so its path relative to the .blend reads so
+        pc2 = cache_file_path(folder, ob_name)
 
     total = 2 * plan.n_keys
     if positions is not None:
@@ -465,6 +333,41 @@ class TURNABOUT_OT_rebuild(bpy.types.Operator):
         return _run_bake(self, context, ob)
 
 
+def _panel_values(record) -> dict:
+    """Panel settings (name -> value) from an object's build record (the "turnabout" JSON),
+    all read and validated before any is set; BakeError when the record is not one we wrote."""
+    from turnabout.eversion import STAGE_NAMES, Controls, default_depth
+
+    try:
+        data = json.loads(record)
+        c = data["controls"]
+        timing = {k: (float(c["timing"][k][0]), float(c["timing"][k][1])) for k in STAGE_NAMES}
+        controls = Controls(strips=int(c["strips"]), depth=float(c["depth"]), timing=timing)
+        n_lon, n_lat = (int(v) for v in data["mesh"])
+        if data["mode"] not in ("SHAPE_KEYS", "POINT_CACHE"):
+            raise ValueError(f"store as {data['mode']!r}")
+        out = {
+            "strips": controls.strips,
+            # the record holds the depth used; the documented one keeps following the strips
+            "auto_depth": controls.wave_depth == default_depth(controls.strips),
+            "depth": controls.wave_depth,
+            "frames": int(data["frames"]),
+            "frame_start": int(data["frame_start"]),
+            "key_step": int(data["key_step"]),
+            "bake_mode": data["mode"],
+            "mesh_lon": n_lon,
+            "mesh_lat": n_lat,
+        }
+    except (TypeError, ValueError, KeyError, AttributeError) as exc:  # ControlError too
+        raise BakeError(
+            f"object property {PROP_TAG!r}: not a Turnabout build record ({exc}); "
+            "re-build the object from the panel or add a new eversion"
+        ) from None
+    for stage, (a, b) in timing.items():
+        out[f"{stage}_start"], out[f"{stage}_end"] = a, b
+    return out
+
+
 class TURNABOUT_OT_load_settings(bpy.types.Operator):
     """Copy the active eversion's build settings into the panel"""
 
@@ -474,19 +377,20 @@ class TURNABOUT_OT_load_settings(bpy.types.Operator):
 
     @classmethod
     def poll(cls, context):
-        return is_eversion_object(context.active_object)
+        if is_eversion_object(context.active_object):
+            return True
+        cls.poll_message_set("select a Turnabout eversion to load its settings")
+        return False
 
     def execute(self, context):
-        data = json.loads(context.active_object[PROP_TAG])
+        try:
+            values = _panel_values(context.active_object[PROP_TAG])
+        except BakeError as exc:
+            self.report({"ERROR"}, str(exc))
+            return {"CANCELLED"}
         s = context.scene.turnabout
-        c = data["controls"]
-        s.strips = c["strips"]
-        s.depth = c["depth"]
-        for stage, (a, b) in c["timing"].items():
-            setattr(s, f"{stage}_start", a)
-            setattr(s, f"{stage}_end", b)
-        s.frames, s.frame_start, s.key_step = data["frames"], data["frame_start"], data["key_step"]
-        s.bake_mode = data["mode"]
+        for name, value in values.items():
+            setattr(s, name, value)
         return {"FINISHED"}
 
 

@@ -246,6 +246,7 @@ def run_render(args) -> int:
     if not _bpy_or_message("render"):
         return 2
     import bpy
+    from turnabout.frame_ranges import parse_frames
     from turnabout.output import check_output_folder
     from turnabout.progress import ProgressBar
 
@@ -256,7 +257,7 @@ def run_render(args) -> int:
         headless.check_render_settings(args.engine, args.size, args.samples)
         headless.open_blend(args.blend)
         scene = bpy.context.scene
-        frames = headless.parse_frames(args.frames, (scene.frame_start, scene.frame_end))
+        frames = parse_frames(args.frames, (scene.frame_start, scene.frame_end))
         render_one = None
         if args.side_by_side:
             from . import view_rigs
@@ -345,7 +346,7 @@ def run_demo(args) -> int:
     if not _bpy_or_message("demo"):
         return 2
     import bpy
-    from turnabout.output import check_output_folder
+    from turnabout.output import make_output_folder
     from turnabout.progress import ProgressBar
 
     from . import check_objects, headless
@@ -359,9 +360,7 @@ def run_demo(args) -> int:
         if args.previews < 0:
             raise headless.HeadlessError(f"--previews: must be 0 or more, got {args.previews}")
         headless.check_render_settings(args.engine, args.size, args.samples)
-        check_output_folder(args.out, "--out")
-        os.makedirs(out_dir, exist_ok=True)
-        check_objects.ensure_writable(out_dir)
+        make_output_folder(args.out, "--out")
         controls = choice.controls
         frames = choice.frame_count
         mesh = _mesh(choice)

@@ -6,16 +6,15 @@ an imported cache): each frame is evaluated through the depsgraph and read with
 it from a modal operator (ESC cancels) while background runs drive it to completion.
 
 Everything that can be refused (object, frame range, topology, report folder) is found
-before the scene is touched; the results are applied only after the report files exist:
-per-frame list, timeline markers at failing frames and at the worst frame, the per-frame
-metrics as animated custom properties, a heat colour attribute, and optionally the double
-curves as a curve object.
+before the scene is touched (the frame range, report names and heat colours come from the
+core: ``turnabout.frame_ranges``, ``turnabout.check.report``, ``turnabout.check.heat``);
+the results are applied only after the report files exist: per-frame list, timeline
+markers at failing frames and at the worst frame, the per-frame metrics as animated custom
+properties, a heat colour attribute, and optionally the double curves as a curve object.
 """
 
 from __future__ import annotations
 
-import os
-import tempfile
 import threading
 import time
 from dataclasses import dataclass, field
@@ -23,12 +22,15 @@ from dataclasses import dataclass, field
 import bpy
 import numpy as np
 from bpy.props import BoolProperty, IntProperty, StringProperty
+from turnabout.frame_ranges import frames_to_check
+from turnabout.output import check_output_folder, make_output_folder, resolve_blend_relative
 
 MARKER_FAIL = "turnabout fail"
 MARKER_WORST = "turnabout worst"
 MARKER_QUADRUPLE = "turnabout four sheets"
 _OUR_MARKERS = (MARKER_FAIL, MARKER_WORST, MARKER_QUADRUPLE)
 METRIC_PREFIX = "turnabout_"
+METRIC_DESCRIPTION = "Turnabout check metric"  # begins each metric property's description
 HEAT_ATTRIBUTE = "turnabout_heat"
 CURVE_SUFFIX = " double curves"
 METRICS_ACTION_SUFFIX = " check metrics"
@@ -61,25 +63,6 @@ class CheckOutcome:
 # ----------------------------------------------------------------------------- validation
 
 
-def resolve_range(scene, settings=None, start=None, end=None) -> tuple[int, int]:
-    """The (first, last) scene frames to check, inclusive; CheckError when empty."""
-    if start is None or end is None:
-        if settings is not None and not settings.check_use_scene_range:
-            start, end = settings.check_start, settings.check_end
-        else:
-            start, end = scene.frame_start, scene.frame_end
-    start, end = int(start), int(end)
-    if end < start:
-        raise CheckError(
-            f"frame range: {start}-{end} is empty; the last frame must be at or after the first"
-        )
-    if end - start + 1 < 2:
-        raise CheckError(
-            f"frame range: {start}-{end} has one frame; checking motion needs two or more"
-        )
-    return start, end
-
-
 def validate_object(ob) -> None:
     if ob is None:
         raise CheckError("object: nothing is active; select a mesh object to check")
@@ -87,37 +70,6 @@ def validate_object(ob) -> None:
         raise CheckError(
             f"object: {ob.name!r} is a {ob.type.lower()}, not a mesh; select a mesh object"
         )
-
-
-def report_folder(settings_dir: str) -> str:
-    """Absolute report folder from a Blender path ('//' = beside the .blend)."""
-    if settings_dir.startswith("//") and not bpy.data.filepath:
-        raise CheckError(
-            "report folder: '//' means beside the .blend, which is not saved yet; "
-            "save the file or choose an absolute folder"
-        )
-    return os.path.abspath(bpy.path.abspath(settings_dir or "//"))
-
-
-def ensure_writable(folder: str) -> None:
-    try:
-        os.makedirs(folder, exist_ok=True)
-        fd, probe = tempfile.mkstemp(dir=folder, suffix=".probe")
-        os.close(fd)
-        os.remove(probe)
-    except OSError as exc:
-        raise CheckError(
-            f"report folder: cannot write to {folder!r} ({exc.strerror or exc}); "
-            "choose a writable folder"
-        ) from None
-
-
-def report_paths(folder: str, ob_name: str, stem: str | None = None) -> tuple[str, str]:
-    """JSON and PNG report paths: ``<blend name>_<object>_check.json`` / ``.png``."""
-    stem = stem or os.path.splitext(os.path.basename(bpy.data.filepath))[0] or "untitled"
-    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in ob_name)
-    base = os.path.join(folder, f"{stem}_{safe}_check")
-    return base + ".json", base + ".png"
 
 
 # ----------------------------------------------------------------------------- reading
@@ -222,13 +174,6 @@ def _run_checker(
         state["error"] = exc
 
 
-def _atomic_write(path: str, writer) -> None:
-    """Write a report through a temporary file that keeps its extension (for the plotter)."""
-    from turnabout.meshseq import atomic_write
-
-    atomic_write(path, writer, suffix=".part" + os.path.splitext(path)[1])
-
-
 def check_steps(
     context,
     ob,
@@ -246,9 +191,11 @@ def check_steps(
     judges frames in that many forked processes (headless runs only: a forked copy of an
     interactive Blender is not something to rely on).
     """
+    from turnabout.check.report import report_paths  # the checker loads on first use
+
     validate_object(ob)
     if folder is not None:
-        ensure_writable(folder)
+        check_output_folder(folder, "report folder")
     reader = read_frames(context, ob, start, end)
     while True:
         try:
@@ -279,18 +226,19 @@ def check_steps(
     report = state["report"]
     outcome = CheckOutcome(ob.name, np.arange(start, end + 1), positions, faces, report)
     if folder is not None:
-        json_path, png_path = report_paths(folder, ob.name, stem)
+        json_path, png_path = report_paths(folder, ob.name, bpy.data.filepath, stem)
         try:
-            _atomic_write(json_path, report.write_json)
+            make_output_folder(folder, "report folder")
+            report.write_json(json_path)  # both writers are atomic
             outcome.files.append(json_path)
         except OSError as exc:
             raise CheckError(
                 f"report: cannot write {json_path!r} ({exc.strerror or exc})"
             ) from None
         try:
-            _atomic_write(png_path, report.write_plot)
+            report.write_plot(png_path)
             outcome.files.append(png_path)
-        except ImportError as exc:
+        except (ImportError, RuntimeError) as exc:  # RuntimeError: matplotlib is missing
             outcome.warnings.append(f"no PNG report: {exc}")
         except OSError as exc:
             outcome.warnings.append(
@@ -312,17 +260,6 @@ def run_to_completion(steps, progress=None):
 
 
 # ----------------------------------------------------------------------------- results
-
-
-def heat_colours(heat: np.ndarray) -> np.ndarray:
-    """RGBA per vertex, (V, 4) float32: cool blue at 0, warm yellow near 1, red at or above 1."""
-    h = np.nan_to_num(np.asarray(heat, np.float64), nan=1.0, posinf=1.0, neginf=0.0)
-    t = np.clip(h, 0.0, 1.0)[:, None]
-    cool = np.array([0.12, 0.30, 0.85])
-    warm = np.array([1.0, 0.85, 0.15])
-    rgb = cool * (1 - t) + warm * t
-    rgb[h >= 1.0] = (0.9, 0.08, 0.05)
-    return np.concatenate([rgb, np.ones((len(h), 1))], axis=1).astype(np.float32)
 
 
 def _metrics_action(ob):
@@ -350,6 +287,8 @@ def _numeric_columns(table: dict, n: int) -> dict:
 
 def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_object: bool = False):
     """Show a finished check in the scene (markers, metric curves, heat, list, curves)."""
+    from turnabout.check.heat import heat_colours
+
     from .bake import _set_fcurve
 
     scene = context.scene
@@ -378,7 +317,7 @@ def apply_outcome(context, ob, outcome: CheckOutcome, settings=None, curve_objec
         prop = METRIC_PREFIX + name
         finite = np.clip(np.nan_to_num(values, nan=0.0, posinf=1e30, neginf=-1e30), -1e30, 1e30)
         ob[prop] = float(finite[cur])
-        ob.id_properties_ui(prop).update(description=f"Turnabout check metric '{name}' per frame")
+        ob.id_properties_ui(prop).update(description=f"{METRIC_DESCRIPTION} '{name}' per frame")
         _set_fcurve(action, ob, f'["{prop}"]', frames.astype(np.float64), finite)
 
     # heat of the current frame (or the worst one when the current frame was not checked)
@@ -467,17 +406,25 @@ class TURNABOUT_OT_check(bpy.types.Operator):
 
     @classmethod
     def poll(cls, context):
-        return context.active_object is not None
+        if context.active_object is not None:
+            return True
+        cls.poll_message_set("select a mesh object to check")
+        return False
 
     def _prepare(self, context):
         s = context.scene.turnabout
         ob = context.active_object
         validate_object(ob)
         if self.use_range:
-            start, end = resolve_range(context.scene, start=self.first, end=self.last)
+            chosen = (self.first, self.last)
         else:
-            start, end = resolve_range(context.scene, s)
-        folder = report_folder(self.report_dir or s.report_dir) if self.write_reports else None
+            chosen = None if s.check_use_scene_range else (s.check_start, s.check_end)
+        start, end = frames_to_check(context.scene.frame_start, context.scene.frame_end, chosen)
+        folder = None
+        if self.write_reports:
+            folder = resolve_blend_relative(
+                self.report_dir or s.report_dir, bpy.data.filepath, "report folder"
+            )
         return ob, check_steps(context, ob, start, end, folder, s.check_intersections,
                                quadruple=s.check_quadruple_points)  # fmt: skip
 
@@ -515,6 +462,10 @@ class TURNABOUT_OT_check(bpy.types.Operator):
     def invoke(self, context, event):
         if bpy.app.background:
             return self.execute(context)
+        return self._begin_modal(context)
+
+    def _begin_modal(self, context):
+        """Validate, then step the check from timer events (the interface's path)."""
         try:
             self._ob_name = context.active_object.name
             _, self._steps = self._prepare(context)
@@ -553,34 +504,18 @@ class TURNABOUT_OT_check(bpy.types.Operator):
                 )
         except StopIteration as stop:
             self._stop(context)
-            return self._finish(context, bpy.data.objects[self._ob_name], stop.value)
+            # by the name the check ended with (the user may have renamed it meanwhile)
+            return self._finish(context, bpy.data.objects[stop.value.object_name], stop.value)
         except (ValueError, OSError) as exc:
             self._stop(context)
             self.report({"ERROR"}, str(exc))
             return {"CANCELLED"}
+        except ReferenceError:  # the user deleted the object while the check ran
+            self._steps.close()
+            self._stop(context)
+            self.report({"ERROR"}, f"object: {self._ob_name!r} was removed during the check")
+            return {"CANCELLED"}
         return {"RUNNING_MODAL"}
 
 
-class TURNABOUT_OT_clear_check(bpy.types.Operator):
-    """Remove the check's markers, metric curves, heat attribute and list"""
-
-    bl_idname = "turnabout.clear_check"
-    bl_label = "Clear Check Results"
-    bl_options = {"REGISTER", "UNDO"}
-
-    def execute(self, context):
-        scene = context.scene
-        for m in [m for m in scene.timeline_markers if m.name in _OUR_MARKERS]:
-            scene.timeline_markers.remove(m)
-        scene.turnabout.results.clear()
-        scene.turnabout.last_verdict = ""
-        ob = context.active_object
-        if ob is not None:
-            for key in [k for k in ob.keys() if k.startswith(METRIC_PREFIX)]:
-                del ob[key]
-            if ob.type == "MESH" and HEAT_ATTRIBUTE in ob.data.color_attributes:
-                ob.data.color_attributes.remove(ob.data.color_attributes[HEAT_ATTRIBUTE])
-        return {"FINISHED"}
-
-
-CLASSES = (TURNABOUT_OT_check, TURNABOUT_OT_clear_check)
+CLASSES = (TURNABOUT_OT_check,)

@@ -135,10 +135,12 @@ def _new_mesh(name: str, first: np.ndarray, faces: np.ndarray):
 
 def _bake_keys(ob, positions: np.ndarray, frame_start: int, times: np.ndarray) -> None:
     """One absolute shape key per frame through the eversion bake's key writer."""
+    from turnabout.baking.plan import BakePlan
+
     from . import bake
 
     n = positions.shape[0]
-    plan = bake.BakePlan(
+    plan = BakePlan(
         controls=None,
         mesh=None,
         frames=n,

@@ -42,8 +42,12 @@ class _ExportMixin(ExportHelper):
         return context.active_object is not None
 
     def _run(self, context, fn):
-        if not os.access(os.path.dirname(os.path.abspath(self.filepath)) or ".", os.W_OK):
-            self.report({"ERROR"}, f"export: cannot write to the folder of {self.filepath!r}")
+        from turnabout.output import OutputError, check_output_file
+
+        try:
+            check_output_file(os.path.abspath(bpy.path.abspath(self.filepath)), "export")
+        except OutputError as exc:
+            self.report({"ERROR"}, str(exc))
             return {"CANCELLED"}
         try:
             path = fn(context.scene, self.filepath, self.selected_only)

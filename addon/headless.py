@@ -10,13 +10,15 @@ import contextlib
 import ctypes
 import math
 import os
-import re
 import sys
 import tempfile
 from types import SimpleNamespace
 
 import bpy
 import numpy as np
+from turnabout.baking.plan import plan_bake, refuse_if_too_big
+from turnabout.frame_ranges import frame_path
+from turnabout.output import atomic_write, check_output_file, check_suffix, make_output_folder
 
 from . import bake, look
 from .props import GUIDE_TINT, INNER_COLOUR, OUTER_COLOUR
@@ -157,60 +159,6 @@ def configure_render(
         shading.color_type = "MATERIAL"
 
 
-FRAME_SPEC = re.compile(r"^\s*(-?\d+)(?:\s*-\s*(-?\d+)(?::(\d+))?)?\s*$")
-
-
-def parse_frames(spec: str, default_range: tuple[int, int] | None = None) -> list[int]:
-    """Frames from ``"1-120"``, ``"1,5,9"``, ``"1-120:10"`` (every 10th) or combinations.
-
-    Returns the sorted unique frames; HeadlessError on bad syntax or an empty selection.
-    """
-    if spec is None or not spec.strip():
-        if default_range is None:
-            raise HeadlessError("--frames: give frames like 1-120, 1,5,9 or 1-120:10")
-        a, b = default_range
-        frames = list(range(a, b + 1))
-    else:
-        frames = []
-        for part in spec.split(","):
-            m = FRAME_SPEC.match(part)
-            if not m:
-                raise HeadlessError(
-                    f"--frames: cannot read {part.strip()!r}; "
-                    "use N, A-B or A-B:STEP separated by commas"
-                )
-            a = int(m.group(1))
-            b = int(m.group(2)) if m.group(2) is not None else a
-            step = int(m.group(3) or 1)
-            if step < 1:
-                raise HeadlessError(f"--frames: step must be at least 1 in {part.strip()!r}")
-            if b < a:
-                raise HeadlessError(f"--frames: {part.strip()!r} is empty (end before start)")
-            if default_range is not None and (a < default_range[0] or b > default_range[1]):
-                lo, hi = default_range
-                raise HeadlessError(
-                    f"--frames: {part.strip()!r} reaches outside the file's frame range "
-                    f"{lo}-{hi}; give frames from {lo} to {hi}"
-                )
-            frames.extend(range(a, b + 1, step))
-    if not frames:
-        raise HeadlessError("--frames: the selection is empty")
-    return sorted(set(frames))
-
-
-def _fresh_name(stem: str, ext: str) -> str:
-    """A temporary path beside ``stem`` that does not exist yet (so Blender keeps no backup)."""
-    for n in range(1000):
-        tmp = f"{stem}.part{os.getpid()}-{n}{ext}"
-        if not os.path.exists(tmp):
-            return tmp
-    raise HeadlessError(f"output: cannot find a free temporary name beside {stem!r}")
-
-
-def frame_path(out_dir: str, frame: int) -> str:
-    return os.path.join(out_dir, f"frame_{frame:04d}.png")
-
-
 @contextlib.contextmanager
 def blender_output_silenced():
     """Send what Blender prints to standard output ("Saved: ..." per render) to /dev/null.
@@ -239,20 +187,27 @@ def blender_output_silenced():
         os.close(devnull)
 
 
+def _render_still(scene, tmp: str) -> None:
+    """Render the scene's current frame from its camera into the file ``tmp``."""
+    scene.render.filepath = tmp
+    with blender_output_silenced():
+        bpy.ops.render.render(write_still=True, scene=scene.name)
+    if os.path.getsize(tmp) == 0:  # the writer made it empty: nothing was rendered into it
+        raise HeadlessError(f"render: Blender wrote no image for frame {scene.frame_current}")
+
+
 def render_frames(
     scene, out_dir: str, frames, resume: bool = True, progress=None, render_one=None
 ):
     """Render each frame to ``out_dir/frame_NNNN.png``; returns (rendered, skipped) lists.
 
     With ``resume`` frames whose PNG already exists are skipped. Each image is written
-    to a temporary name and renamed, so an interrupted run leaves no half file.
-    ``render_one(path, frame)``, when given, writes a frame's image instead of a plain
-    render from the scene camera (it must write atomically too).
+    through the one atomic writer (``turnabout.output``), so an interrupted run leaves no
+    half file. ``render_one(path, frame)``, when given, writes a frame's image instead of
+    a plain render from the scene camera (it must write atomically too). ``out_dir`` is
+    made if missing (its parent must exist).
     """
-    from turnabout.output import check_output_folder
-
-    check_output_folder(out_dir, "output folder")
-    os.makedirs(out_dir, exist_ok=True)
+    make_output_folder(out_dir, "output folder")
     if scene.camera is None:
         raise HeadlessError("scene: has no camera to render from")
     rendered, skipped = [], []
@@ -268,15 +223,7 @@ def render_frames(
                 rendered.append(f)
             else:
                 scene.frame_set(f)
-                tmp = _fresh_name(path[: -len(".png")], ".png")
-                try:
-                    scene.render.filepath = tmp
-                    with blender_output_silenced():
-                        bpy.ops.render.render(write_still=True, scene=scene.name)
-                    os.replace(tmp, path)
-                finally:
-                    if os.path.exists(tmp):
-                        os.remove(tmp)
+                atomic_write(path, lambda tmp: _render_still(scene, tmp))
                 rendered.append(f)
             if progress is not None:
                 progress(i + 1, len(frames))
@@ -313,8 +260,8 @@ def build_scene(
     progress=None,
 ):
     """A fresh file with the baked eversion, its material, camera and lights; returns the object."""
-    plan = bake.plan_bake(controls, frames, frame_start, key_step, mesh, mode)
-    bake.refuse_if_too_big(plan, memory_limit_mb)
+    plan = plan_bake(controls, frames, frame_start, key_step, mesh, mode)
+    refuse_if_too_big(plan, memory_limit_mb)
     empty_file()
     scene = bpy.context.scene
     configure_render(scene, engine, size, samples)
@@ -336,25 +283,21 @@ def build_scene(
 
 
 def save_blend(path: str, compress: bool = True) -> str:
-    """Save the open file to ``path`` through a temporary file in the same folder."""
+    """Save the open file to ``path`` (which must end in .blend and sit in an existing,
+    writable folder) through the one atomic writer; returns the absolute path."""
     path = os.path.abspath(path)
-    folder = os.path.dirname(path)
-    if not path.lower().endswith(".blend"):
-        raise HeadlessError(f"output: {path!r} must end in .blend")
-    try:
-        os.makedirs(folder, exist_ok=True)
-    except OSError as exc:
-        raise HeadlessError(f"output: cannot create {folder!r} ({exc.strerror})") from None
-    if not os.access(folder, os.W_OK):
-        raise HeadlessError(f"output: cannot write to {folder!r}")
-    tmp = _fresh_name(path[: -len(".blend")], ".blend")
-    try:
+    check_suffix(path, (".blend",), "output", "the scene file")
+    check_output_file(path, "output")
+
+    def save(tmp: str) -> None:
+        # Blender keeps a backup (.blend1) of a file it saves over: save to a new name
+        os.remove(tmp)
         with blender_output_silenced():  # "Info: Saved copy as ..." names the temporary file
             bpy.ops.wm.save_as_mainfile(filepath=tmp, compress=compress, copy=True)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+        if not os.path.isfile(tmp):
+            raise HeadlessError(f"output: Blender did not save {path!r}")
+
+    atomic_write(path, save)
     return path
 
 

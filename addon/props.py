@@ -42,6 +42,14 @@ OUTER_COLOUR = (0.93, 0.52, 0.22, 1.0)
 INNER_COLOUR = (0.08, 0.42, 0.52, 1.0)
 GUIDE_TINT = (0.98, 0.93, 0.80, 1.0)
 
+# Path settings whose default is beside the .blend ('//'): Blender 4.5+ accepts '//' in a
+# path property only when the property says so (older versions have no such option).
+PATH_OPTIONS = {"ANIMATABLE"} | (
+    {"PATH_SUPPORTS_BLEND_RELATIVE"}
+    if "is_path_supports_blend_relative" in bpy.types.Property.bl_rna.properties
+    else set()
+)
+
 MESH_SPACINGS = (
     (
         "BEND",
@@ -177,6 +185,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         description="Folder for point-cache files ('//' = beside the .blend)",
         default="//turnabout_cache/",
         subtype="DIR_PATH",
+        options=PATH_OPTIONS,
     )
     memory_limit_mb: FloatProperty(
         name="Memory limit (MB)",
@@ -244,6 +253,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         description="Where the JSON and PNG reports go ('//' = beside the .blend)",
         default="//",
         subtype="DIR_PATH",
+        options=PATH_OPTIONS,
     )
     results: CollectionProperty(type=TURNABOUT_PG_frame_result)
     results_index: IntProperty(name="Frame", default=0)

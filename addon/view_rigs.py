@@ -167,7 +167,9 @@ def baked_positions(scene, ob, vertex_ids=None, progress=None, evaluated=False) 
 
 def _stored_positions(ob, count: int, sel):
     """Every frame from the bake's own storage, or None when it is not as the bake left it."""
-    from .bake import MODIFIER_NAME, PROP_TAG, key_offsets_for
+    from turnabout.baking.plan import key_offsets_for
+
+    from .bake import MODIFIER_NAME, PROP_TAG
 
     n = len(ob.data.vertices)
     data = json.loads(ob[PROP_TAG])

@@ -22,6 +22,7 @@ from bpy.props import (
 
 from . import view_objects as vo
 from . import view_stills, view_stripes
+from .props import PATH_OPTIONS
 from .view_options import (
     DEFAULT_STRIPE_SPACING,
     PARTS_HELP,
@@ -108,6 +109,7 @@ class TURNABOUT_PG_views(bpy.types.PropertyGroup):
         description="Where the side-by-side render goes ('//' = beside the .blend)",
         default="//slices.png",
         subtype="FILE_PATH",
+        options=PATH_OPTIONS,
     )
     level_text: BoolProperty(
         name="Count text",

@@ -41,6 +41,7 @@ def main(argv=None) -> int:
     p.add_argument("--no-check", action="store_true")
     args = p.parse_args(argv)
 
+    from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls, build
     from turnabout.mesh import uniform_sphere_mesh
 
@@ -59,7 +60,7 @@ def main(argv=None) -> int:
     # ---- bake
     def ours():
         headless.empty_file()
-        plan = bake.plan_bake(controls, F, 1, 1, sphere)
+        plan = plan_bake(controls, F, 1, 1, sphere)
         bake.bake_eversion(bpy.context.scene, plan, positions=P, memory_limit_mb=1e6)
 
     def raw_keys():

@@ -17,6 +17,8 @@ from blender_support import (
     set_small_build,
     small_mesh,
 )
+from turnabout.baking.pc2 import read_pc2
+from turnabout.baking.plan import plan_bake
 from turnabout.eversion import ControlError, Controls, build, evaluate
 
 pytestmark = pytest.mark.blender
@@ -26,7 +28,7 @@ def _bake(mode="SHAPE_KEYS", frames=14, key_step=1, frame_start=5, mesh=None, ca
     from turnabout_blender import bake
 
     mesh = mesh or small_mesh()
-    plan = bake.plan_bake(Controls(), frames, frame_start, key_step, mesh, mode)
+    plan = plan_bake(Controls(), frames, frame_start, key_step, mesh, mode)
     kw = {"cache_dir": cache_dir} if cache_dir else {}
     ob = bake.bake_eversion(bpy.context.scene, plan, **kw)
     bake.set_scene_range(bpy.context.scene, plan)
@@ -70,20 +72,34 @@ def test_keys_every_nth_frame_and_in_between_frames_blend_linearly():
 
 @pytest.mark.usefixtures("blank")
 def test_point_cache_plays_the_core_positions(tmp_path):
-    from turnabout_blender import bake
-
     ob, plan = _bake(mode="POINT_CACHE", frames=10, frame_start=3, cache_dir=str(tmp_path))
     pc2 = os.path.join(str(tmp_path), "Eversion.pc2")
     with open(pc2, "rb") as fh:
         head = fh.read(32)
     # PC2 header: signature, version 1, points, start, rate, samples (common practice)
-    assert head[:12] == bake.PC2_HEADER
+    assert head[:12] == b"POINTCACHE2\0"
     assert np.frombuffer(head[12:20], "<i4").tolist() == [1, small_mesh().n_vertices]
     assert np.frombuffer(head[28:32], "<i4")[0] == 10
     assert ob.data.shape_keys is None
     core = build(Controls(), frames=10, mesh=small_mesh())
     got = evaluated_positions(ob, range(3, 13))
     assert np.abs(got - core.positions).max() <= 1e-5
+    # Blender's Mesh Cache modifier plays what the core's reader reads from the file
+    stored, _, _ = read_pc2(pc2)
+    assert np.abs(got - stored).max() <= 1e-6
+
+
+@pytest.mark.usefixtures("blank")
+def test_a_cache_folder_whose_parent_is_missing_is_refused_before_any_data(tmp_path):
+    from turnabout.output import OutputError
+
+    from turnabout_blender import bake
+
+    plan = plan_bake(Controls(), 4, 1, 1, small_mesh(), "POINT_CACHE")
+    before = counts()
+    with pytest.raises(OutputError, match="^cache folder .*does not exist; create it first"):
+        bake.bake_eversion(bpy.context.scene, plan, cache_dir=str(tmp_path / "no" / "cache"))
+    assert counts() == before and not (tmp_path / "no").exists()
 
 
 REOPEN = """
@@ -261,3 +277,12 @@ def test_the_panel_speaks_the_options_words_and_keeps_depth_in_range():
     s = bpy.context.scene.turnabout
     s.depth = 0.9  # the old default 0.1 and this lay outside what the core accepts
     assert s.depth == pytest.approx(hi)
+
+
+@pytest.mark.parametrize("folder", ["//", "//cache", "//cache/", "//../up/c", "//a//b"])
+def test_double_slash_folders_resolve_as_blender_resolves_them(tmp_path, folder):
+    from turnabout.output import resolve_blend_relative
+
+    blend = str(tmp_path / "shots" / "a.blend")
+    blenders = os.path.abspath(bpy.path.abspath(folder, start=os.path.dirname(blend)))
+    assert resolve_blend_relative(folder, blend, "cache folder") == blenders

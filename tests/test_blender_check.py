@@ -195,11 +195,12 @@ def test_the_check_reports_the_bakes_frame_times(tmp_path):
     # a bake shows time (f - frame_start) / (frames - 1) at frame f; frames past the bake
     # have no time (null)
     from blender_support import small_mesh
+    from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls
 
     from turnabout_blender import bake
 
-    plan = bake.plan_bake(Controls(), 6, 3, 1, small_mesh(), "SHAPE_KEYS")
+    plan = plan_bake(Controls(), 6, 3, 1, small_mesh(), "SHAPE_KEYS")
     ob = bake.bake_eversion(bpy.context.scene, plan)
     bpy.context.view_layer.objects.active = ob
     out = tmp_path / "reports"

@@ -10,6 +10,7 @@ import sys
 import numpy as np
 import pytest
 from blender_support import REPO, blank, bpy, evaluated_positions  # noqa: F401  (fixture)
+from turnabout.frame_ranges import frame_path
 
 pytestmark = pytest.mark.blender
 
@@ -47,8 +48,8 @@ def test_first_frame_shows_only_the_outer_colour_and_last_only_the_inner(tmp_pat
     out = str(tmp_path / "frames")
     done, skipped = headless.render_frames(scene, out, [1, 6], resume=False)
     assert done == [1, 6] and skipped == []
-    first = headless.read_png(headless.frame_path(out, 1))
-    last = headless.read_png(headless.frame_path(out, 6))
+    first = headless.read_png(frame_path(out, 1))
+    last = headless.read_png(frame_path(out, 6))
     assert first.shape == (48, 64, 4)
     for img, want, other in ((first, 1, 2), (last, 2, 1)):
         masks = _sides(img)

@@ -9,6 +9,7 @@ import json
 import numpy as np
 import pytest
 from blender_support import blank, bpy, run_python  # noqa: F401  (fixture used by name)
+from turnabout.frame_ranges import frame_path
 
 pytestmark = pytest.mark.blender
 
@@ -104,7 +105,7 @@ def test_band_camera_keeps_the_band_the_same_size_in_the_image(tmp_path):
     for f in (1, 9, 18):  # 18: the middle, where other sheets pass above the band
         scene.camera = top
         headless.render_frames(scene, str(out), [f], resume=False)
-        rgba = headless.read_png(headless.frame_path(str(out), f))
+        rgba = headless.read_png(frame_path(str(out), f))
         band = _highlight(rgba)
         assert band.sum() > 30, f
         rendered.append(_bbox_size(band))
@@ -196,7 +197,7 @@ def test_level_markers_show_where_the_points_project_and_the_count_is_animated(t
     scene.frame_set(frame)
     out = tmp_path / "png"
     headless.render_frames(scene, str(out), [frame], resume=False)
-    rgba = headless.read_png(headless.frame_path(str(out), frame))
+    rgba = headless.read_png(frame_path(str(out), frame))
     h, w = rgba.shape[:2]
     cam = scene.camera
     now = levels.frame == frame - 1
@@ -400,12 +401,13 @@ def _levels_with_kind(kind):
 @pytest.mark.parametrize("mode, key_step", [("SHAPE_KEYS", 3), ("POINT_CACHE", 1)])
 @pytest.mark.usefixtures("blank")
 def test_stored_frames_read_back_as_the_depsgraph_evaluates_them(tmp_path, mode, key_step):
+    from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls
     from turnabout.mesh import uniform_sphere_mesh
 
     from turnabout_blender import bake, view_rigs
 
-    plan = bake.plan_bake(Controls(), 11, 4, key_step, uniform_sphere_mesh(64, 16), mode)
+    plan = plan_bake(Controls(), 11, 4, key_step, uniform_sphere_mesh(64, 16), mode)
     scene = bpy.context.scene
     ob = bake.bake_eversion(scene, plan, cache_dir=str(tmp_path))
     ids = np.array([0, 5, 700, 1025])

@@ -628,10 +628,9 @@ def test_scene_command_writes_every_view(tmp_path, capsys):
     assert json.loads(view[vo.VIEW_TAG])["reveal"] == ["band", 4, 1, 6]
     # the command's mesh has the default spacing (samples where the surface bends), which
     # the add-on reads back from the UV map: the core's parts on the exact mesh must match
+    from turnabout.baking.plan import mesh_from_settings
     from turnabout.eversion import Controls
     from turnabout.views.parts import surface_parts
-
-    from turnabout_blender.bake import mesh_from_settings
 
     exact = mesh_from_settings(Controls(), 64, 17, "bend")
     mask = surface_parts(exact, STRIPS).select(guides=(0, 1), caps=("south", "north"))

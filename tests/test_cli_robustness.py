@@ -280,16 +280,27 @@ def test_a_dash_writes_the_json_or_csv_report_to_standard_output(breathing, caps
     assert main(["check", str(breathing), "--csv", "-", "--json", "-"]) == 2
 
 
-def test_there_is_one_atomic_writer():
-    assert meshseq.atomic_write is output.atomic_write
-    defining = [
-        p.relative_to(REPO)
-        for p in (REPO / "core").rglob("*.py")
-        if re.search(r"^def atomic_write\(", p.read_text(), re.M)
-    ]
-    assert defining == [Path("core/turnabout/output.py")]
-    for p in (REPO / "addon").glob("*.py"):
-        assert "os.replace(" not in p.read_text() or p.name == "headless.py", p
+def _sources() -> dict[str, str]:
+    """Every Python source of the core and the add-on, by path relative to the repository."""
+    files = [*(REPO / "core").rglob("*.py"), *(REPO / "addon").glob("*.py")]
+    return {p.relative_to(REPO).as_posix(): p.read_text(encoding="utf-8") for p in files}
+
+
+def test_there_is_one_atomic_writer_one_folder_check_and_one_file_name_sanitiser():
+    sources = _sources()
+    owner = ["core/turnabout/output.py"]
+
+    def using(pattern: str) -> list[str]:
+        return sorted(path for path, text in sources.items() if re.search(pattern, text, re.M))
+
+    assert using(r"^def atomic_write\(") == owner
+    # renaming into place, temporary files and write-permission probes: only in the writer
+    assert using(r"os\.(replace|rename)\(") == owner
+    assert using(r"mkstemp\(") == owner
+    assert using(r"os\.access\(") == owner
+    assert using(r"isalnum\(\)") == owner
+    # and the add-on makes no folder itself
+    assert using(r"os\.makedirs\(") == []
     with pytest.raises(output.OutputError, match="does not exist"):
         output.atomic_write_bytes(Path("/nonexistent-folder-xyz/a.bin"), b"x")
 

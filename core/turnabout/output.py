@@ -6,8 +6,11 @@
   is written in place, never replaced by a regular file. Missing folders are not created:
   they are refused with :class:`OutputError`.
 * :func:`check_output_file` and :func:`check_output_folder` say, before a long computation,
-  whether its result could be written, naming the user's option and path.
-* ``-`` means standard output where a command supports it (:func:`write_text`).
+  whether its result could be written, naming the user's option and path; they change
+  nothing. :func:`make_output_folder` makes the checked folder (its one job).
+* :func:`safe_file_name` turns a name chosen in Blender (an object's) into a file name.
+* :func:`resolve_blend_relative` reads Blender's ``//`` (beside the .blend) in a folder.
+* ``-`` means standard output where a command supports it (:func:`write_bytes`).
 """
 
 from __future__ import annotations
@@ -91,6 +94,48 @@ def check_output_folder(path, option: str | None = None) -> None:
     _check_parent(target, path, option)
 
 
+def make_output_folder(path, option: str | None = None) -> Path:
+    """Check ``path`` with :func:`check_output_folder`, then create it if missing (its
+    parent must exist: one level is made, never a chain). Returns the resolved folder."""
+    check_output_folder(path, option)
+    target = resolved(path)
+    try:
+        target.mkdir(exist_ok=True)
+    except OSError as exc:
+        raise OutputError(
+            f"{_where(option, path)}: cannot create the folder ({exc.strerror or exc})"
+        ) from None
+    return target
+
+
+def safe_file_name(name: str) -> str:
+    """``name`` with every character but letters, digits, '-', '_' and '.' made '_'.
+
+    For names chosen in Blender (objects may be called anything, "/" and ".." included):
+    the result is one path component that stays inside the folder it is joined to.
+    """
+    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in name)
+    return "_" if safe.strip(".") == "" else safe
+
+
+def resolve_blend_relative(path: str, blend_file: str, option: str) -> str:
+    """Absolute form of a folder given in Blender's convention (``//`` = beside the .blend).
+
+    ``blend_file`` is the open .blend's path ("" when it was never saved); an empty
+    ``path`` means ``//``. Raises :class:`OutputError` naming ``option`` for ``//`` in an
+    unsaved file.
+    """
+    path = path or "//"
+    if path.startswith("//"):
+        if not blend_file:
+            raise OutputError(
+                f"{option}: {path!r} means beside the .blend, which is not saved yet; "
+                "save the file or choose an absolute folder"
+            )
+        path = os.path.join(os.path.dirname(blend_file), path[2:])
+    return os.path.abspath(path)
+
+
 def _check_parent(target: Path, path, option: str | None) -> None:
     parent = target.parent
     if not parent.is_dir():
@@ -111,11 +156,13 @@ def check_suffix(path, suffixes: tuple[str, ...], option: str | None, what: str)
         )
 
 
-def atomic_write(path, writer: Callable[[str], None], suffix: str = ".part") -> None:
+def atomic_write(path, writer: Callable[[str], None], suffix: str | None = None) -> None:
     """Run ``writer(tmp)`` on a temporary file beside ``path``, then rename it over ``path``.
 
-    The temporary name ends in ``suffix`` (give the real extension when the writer infers
-    the format from it). The file gets the permissions a plain ``open`` would give (mkstemp's
+    The temporary name ends in ``suffix``, by default ``.part`` plus the extension of
+    ``path`` (so writers that infer the format from the name see the real one). The
+    temporary file exists (empty) when ``writer`` is called; a writer that must create it
+    itself may remove it first. The file gets the permissions a plain ``open`` would give (mkstemp's
     are private); on any error the temporary file is removed and nothing is left at ``path``.
     A symbolic link is written through (its target is replaced, the link kept); a special
     file is written in place. A missing folder raises :class:`OutputError`; other failures
@@ -127,6 +174,8 @@ def atomic_write(path, writer: Callable[[str], None], suffix: str = ".part") -> 
     target = resolved(path)
     if not target.parent.is_dir():
         raise OutputError(f"{path}: the folder {target.parent} does not exist; create it first")
+    if suffix is None:
+        suffix = ".part" + target.suffix
     try:
         fd, tmp = tempfile.mkstemp(prefix="." + target.name + ".", suffix=suffix, dir=target.parent)
     except OSError as exc:

@@ -8,6 +8,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -52,6 +53,18 @@ VERDICTS = ("ok", "warn", "fail")
 # fact of the surface or of its sampling (points where 4 or 8 sheets meet on a symmetry
 # axis, triple points on mesh edges) and leaves the verdict alone.
 LEVELS = ("note", "warn", "fail")
+
+
+def report_paths(
+    folder: str, object_name: str, blend_file: str = "", stem: str | None = None
+) -> tuple[str, str]:
+    """JSON and PNG report paths of a checked object: ``<stem>_<object>_check.json`` / ``.png``
+    in ``folder``, the stem being the .blend's name ("untitled" when never saved)."""
+    from ..output import safe_file_name
+
+    stem = stem or os.path.splitext(os.path.basename(blend_file))[0] or "untitled"
+    base = os.path.join(folder, f"{stem}_{safe_file_name(object_name)}_check")
+    return base + ".json", base + ".png"
 
 
 def cause_of(finding: str) -> str:
@@ -350,7 +363,7 @@ class AnimationReport:
             raise RuntimeError(
                 "plots need matplotlib: install the 'plot' extra (pip install turnabout[plot])"
             ) from exc
-        from ..meshseq import atomic_write_bytes
+        from ..output import atomic_write_bytes
 
         t = self.metrics_table()
         th = self.thresholds

@@ -31,6 +31,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..easing import quintic_step
 from ..progress import ProgressFn, no_progress
 from .sampling import (
     CUSP_TURN,
@@ -74,15 +75,15 @@ class HomotopyCheckFailed(RuntimeError):
 def ease(times, easing: str = "smooth") -> np.ndarray:
     """Eased times in [0, 1].
 
-    ``smooth``: 6t^5 - 15t^4 + 10t^3, zero speed and acceleration at both ends
-    (common practice: Perlin's "smootherstep", Perlin, "Improving noise", 2002);
-    ``linear``: unchanged. times : (F,) float in [0, 1] -> (F,) float64.
+    ``smooth``: the quintic step 6t^5 - 15t^4 + 10t^3 of :mod:`turnabout.easing`, zero
+    speed and acceleration at both ends; ``linear``: unchanged.
+    times : (F,) float in [0, 1] -> (F,) float64.
     """
     t = np.asarray(times, dtype=np.float64)
     if easing == "linear":
         return t.copy()
     if easing == "smooth":
-        return t * t * t * (t * (6.0 * t - 15.0) + 10.0)
+        return quintic_step(t)
     raise CurveError(f"easing: {easing!r} is not one of {', '.join(EASINGS)}")
 
 

@@ -34,8 +34,9 @@ gave last-bit differences that moved the default mesh.
 * The caps pass each other along the axis at p = P_LEVEL, and the equator passes
   through the centre at p = P_CENTRE (both from the closed form).
 * The wave axis is the start frame's e_y carried along the tangent's great circle,
-  pre-turned by 2 chi ease(p / pi) about T0 so that it ends as -e_y, the direction of the
-  latitude velocity on the everted sphere. It never vanishes.
+  pre-turned by 2 chi q(p / pi) (q the quintic step of ``turnabout.easing``) about T0 so
+  that it ends as -e_y, the direction of the latitude velocity on the everted sphere. It
+  never vanishes.
 
 The stages ``swap``, ``twist`` and ``tuck`` drive the turn p through consecutive shares
 of [0, pi] (the caps pass each other inside ``swap``, the equator passes the centre
@@ -48,6 +49,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..easing import quintic, quintic_step
 from ..mesh import SphereMesh
 from .controls import Controls
 
@@ -67,21 +69,15 @@ LAT_STEP = 1e-4  # step of the central difference for F_lat (radians)
 TURN_SHARES = {"swap": 0.4, "twist": 0.2, "tuck": 0.4}
 
 
-def ease(x):
-    """Quintic smooth step on [0, 1] (zero velocity and acceleration at both ends); real x."""
-    x = np.clip(x, 0.0, 1.0)
-    return x * x * x * (x * (6.0 * x - 15.0) + 10.0)
-
-
 def window(t: float, span: tuple[float, float]) -> float:
     a, b = span
-    return float(ease((t - a) / (b - a)))
+    return float(quintic_step((t - a) / (b - a)))
 
 
 def _step(x, a: float, b: float):
     """Quintic smooth step in x from a to b; complex-analytic (branch chosen on Re x)."""
     y = (x - a) / (b - a)
-    poly = y * y * y * (y * (6.0 * y - 15.0) + 10.0)
+    poly = quintic(y)
     xr = np.real(x)
     return np.where(xr <= a, 0.0 * y, np.where(xr >= b, 0.0 * y + 1.0, poly))
 
@@ -279,7 +275,7 @@ def wave_frame(lat, state: StageState, depth: float):
     cc, sc = np.cos(ch)[..., None], np.sin(ch)[..., None]
     ey = _EY
     # axis = Rot(k, p) w: w = e_y turned by beta about T0, k = T0 x E the turning axis
-    beta = (2.0 * float(ease(state.turn))) * ch
+    beta = (2.0 * float(quintic_step(state.turn))) * ch
     w = np.cos(beta)[..., None] * ey + np.sin(beta)[..., None] * g0
     k = sc * ey - cc * g0
     axis = cp * w + sp * np.cross(k, w) + (1.0 - cp) * _dot(k, w)[..., None] * k

@@ -3,9 +3,9 @@
 A *reveal* parameter r runs from 0 (nothing shown) to 1 (the whole surface). Each face has
 an order value o in [0, 1], the reveal value at which it starts to appear, and a weight
 
-    w(r) = ease((r (1 + s) - o) / s),   s = softness,
+    w(r) = q((r (1 + s) - o) / s),   s = softness,
 
-with ``construction.ease`` the project's quintic smooth step: 0 for every face at r = 0
+with q = ``easing.quintic_step`` the project's quintic smooth step: 0 for every face at r = 0
 (o >= 0), 1 for every face at r = 1 (o <= 1), non-decreasing and twice continuously
 differentiable in r. Each face takes s / (1 + s) of the reveal's range to fade in.
 
@@ -25,7 +25,7 @@ import math
 
 import numpy as np
 
-from ..eversion.construction import ease
+from ..easing import quintic_step
 from ..eversion.controls import STAGE_NAMES, Controls
 from ..mesh import SphereMesh
 from .parts import ViewError, face_centroids, surface_parts
@@ -89,4 +89,4 @@ def reveal_weights(order, reveal: float, softness: float = 0.05) -> np.ndarray:
     if not (math.isfinite(softness) and 0.0 < softness <= 1.0):
         raise ViewError("softness", f"must be a number in (0, 1], got {softness!r}")
     o = np.asarray(order, dtype=np.float64)
-    return ease((float(reveal) * (1.0 + softness) - o) / softness)
+    return quintic_step((float(reveal) * (1.0 + softness) - o) / softness)
