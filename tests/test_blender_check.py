@@ -87,8 +87,15 @@ def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
     stem = os.path.join(
         str(tmp_path), "broken_pinch_" + ob.name.replace(" ", "_").replace("-", "-")
     )
-    report = json.load(open(stem + "_check.json"))
-    assert report  # written by the core's own writer
+    with open(stem + "_check.json", encoding="utf-8") as fh:
+        report = json.load(fh)  # written by the core's own writer: the core's verdicts
+    assert report["schema"] == "turnabout.check/1" and report["n_frames"] == len(frames)
+    assert report["verdict"] == core.verdict
+    assert report["failing_frames"] == core.failing_frames()
+    assert [f["verdict"] for f in report["frames"]] == [f.verdict for f in core.frames]
+    assert [f["triple_point_count"] for f in report["frames"]] == [
+        f.triple_point_count for f in core.frames
+    ]
     assert scene.frame_current == scene.frame_start  # the check puts the frame back
 
 

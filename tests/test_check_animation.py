@@ -7,6 +7,7 @@ import json
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.check import (
     AnimationReport,
     CheckInputError,
@@ -175,11 +176,16 @@ def test_csv_report_has_one_row_per_frame(tmp_path, push_through):
     assert float(rows[3]["max_crease_deg"]) == pytest.approx(rep.frames[3].max_crease_deg)
 
 
-def test_plot_is_a_png(tmp_path, push_through):
-    pytest.importorskip("matplotlib")
+def test_plot_is_a_png_with_the_failing_frames_shaded(tmp_path, push_through):
+    mpimg = require("matplotlib.image")
     _, _, _, rep = push_through
-    path = rep.write_plot(tmp_path / "r.png")
-    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    img = mpimg.imread(rep.write_plot(tmp_path / "r.png"))
+    assert img.shape == (1232, 880, 4)  # 8 x 11.2 inches at 110 dpi (report.write_plot)
+    # failing frames are shaded tab:red (214, 39, 40) at alpha 0.25 over white, from the
+    # top panel to the bottom one
+    tint = 0.75 + 0.25 * np.array([214, 39, 40]) / 255
+    hit = np.all(np.abs(img[..., :3] - tint) < 0.02, axis=-1)
+    assert rep.failing_frames() and np.sum(hit.sum(axis=0) >= 300) > 5
 
 
 def test_report_type_and_worst_frame(push_through):

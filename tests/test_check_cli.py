@@ -8,6 +8,7 @@ import sys
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.meshfiles.npz import write_npz
@@ -35,7 +36,7 @@ def push(tmp_path, sphere):
 
 
 def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, capsys):
-    pytest.importorskip("matplotlib")  # the 'plot' extra writes the PNG
+    mpimg = require("matplotlib.image")  # the 'plot' extra writes the PNG
     out = tmp_path / "out"
     out.mkdir()  # output folders are not created: a typo in a path is refused
     code = main(["check", str(breathing), "--json", str(out / "r.json"),
@@ -44,7 +45,9 @@ def test_passing_animation_exits_zero_and_writes_reports(tmp_path, breathing, ca
     data = json.loads((out / "r.json").read_text())
     assert data["verdict"] in ("ok", "warn") and data["everted"] is False
     assert (out / "r.csv").read_text().count("\n") == 9
-    assert (out / "r.png").read_bytes()[:4] == b"\x89PNG"
+    img = mpimg.imread(out / "r.png")
+    assert img.shape == (1232, 880, 4)  # 8 x 11.2 inches at 110 dpi (report.write_plot)
+    assert np.sum(np.all(img[..., :3] < 0.1, axis=-1)) > 1000  # the curves and text
     assert "verdict" in capsys.readouterr().out
 
 
@@ -66,10 +69,15 @@ def test_bad_threshold_is_exit_two(breathing, capsys):
     assert "--crease-warn" in err and "--crease-fail" in err and "crease_warn_deg" not in err
 
 
-def test_obj_folder_with_welding(tmp_path, sphere):
+def test_welding_a_mesh_without_duplicates_keeps_every_vertex(tmp_path, sphere):
+    # (tests/test_check_report_files.py welds a mesh that has duplicates)
     p0, faces = sphere
     write_obj_sequence(tmp_path / "obj", np.stack([p0, 1.1 * p0]), faces)
-    assert main(["check", str(tmp_path / "obj"), "--weld", "--quiet"]) == 0
+    out = tmp_path / "w.json"
+    assert main(["check", str(tmp_path / "obj"), "--weld", "--quiet", "--json", str(out)]) == 0
+    topo = json.loads(out.read_text())["topology"]
+    assert topo["n_vertices"] == len(np.unique(p0, axis=0)) == len(p0)
+    assert topo["n_faces"] == len(faces) and topo["euler_characteristic"] == 2
 
 
 def _garbage(tmp_path, sphere, kind):

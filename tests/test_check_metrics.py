@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import surfaces
+from references import require
 from turnabout.check import gauss_map_degree, signed_volume
 from turnabout.check.curvature import mean_and_gaussian_curvature, principal_curvatures
 from turnabout.check.metrics import frame_metrics, reference_frame
@@ -64,7 +65,7 @@ def test_flipped_sphere_has_negated_volume():
 
 
 def test_volume_agrees_with_trimesh():
-    trimesh = pytest.importorskip("trimesh")
+    trimesh = require("trimesh")
     for p, f in (surfaces.round_sphere(10, radius=0.8), surfaces.torus(40, 20)):
         ref = trimesh.Trimesh(p, f, process=False).volume
         assert signed_volume(p, f) == pytest.approx(ref, rel=1e-10)
@@ -112,7 +113,7 @@ def test_ellipsoid_curvature_matches_the_closed_form():
 
 
 def test_curvature_agrees_with_trimesh_measures():
-    trimesh = pytest.importorskip("trimesh")
+    trimesh = require("trimesh")
     p, f = _ellipsoid()
     mesh = trimesh.Trimesh(p, f, process=False)
     h, k = mean_and_gaussian_curvature(p, f)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import surfaces
+from references import require
 from turnabout.check import topology_report
 from turnabout.check.topology import MeshTopology
 
@@ -123,7 +124,7 @@ def test_a_pinched_open_surface_has_its_pinch_as_the_only_singular_vertex():
 def test_component_labels_match_scipys_connected_components():
     # reference: scipy.sparse.csgraph.connected_components on random sparse graphs, with
     # isolated nodes and long chains (the worst case for label propagation)
-    scipy_graph = pytest.importorskip("scipy.sparse.csgraph")
+    scipy_graph = require("scipy.sparse.csgraph")
     from scipy.sparse import coo_matrix
     from turnabout.check.topology import component_labels
 

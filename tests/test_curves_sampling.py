@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from curve_shapes import circle, curl, ellipse, limacon
+from references import require
 from turnabout.curves import (
     MAX_POINTS,
     CurveError,
@@ -41,7 +42,7 @@ def bezier_circle_segments(radius=1.0, ccw=True):
 
 
 def test_ellipse_length_matches_scipy_quad_of_the_analytic_speed():
-    quad = pytest.importorskip("scipy.integrate").quad
+    quad = require("scipy.integrate").quad
     a, b = 2.0, 0.7
     exact, _ = quad(lambda t: np.hypot(a * np.sin(t), b * np.cos(t)), 0, 2 * np.pi, limit=200)
     c = ellipse(20000, a, b)

@@ -10,6 +10,7 @@ import sys
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.curves import (
     CurveError,
     curve_from_svg,
@@ -208,7 +209,7 @@ def test_path_commands_match_svgpathtools():
     # an independent reader of SVG path data as the reference: every command, absolute
     # and relative, implicit repeats, smooth reflections, arcs with rotation and radii
     # scaled up (SVG 1.1 implementation notes F.6.6)
-    spt = pytest.importorskip("svgpathtools")
+    spt = require("svgpathtools")
     d = (
         "M 10 10 l 30 0 20 5 H 80 v 20 C 90 40 95 60 80 70 s -20 10 -30 0 "
         "Q 40 60 30 70 t -10 10 A 15 8 30 0 1 0 60 a 2 2 0 0 0 -5 -20 Z"
@@ -217,7 +218,7 @@ def test_path_commands_match_svgpathtools():
     ref = spt.parse_path(d)
     length = np.linalg.norm(np.diff(np.vstack([c, c[:1]]), axis=0), axis=1).sum()
     assert abs(length - ref.length()) < 1e-4 * ref.length()
-    kdtree = pytest.importorskip("scipy.spatial").cKDTree
+    kdtree = require("scipy.spatial").cKDTree
     dense = np.array([ref.point(t) for t in np.linspace(0, 1, 2001)])
     ref_pts = np.stack([dense.real, -dense.imag], axis=1)  # y flipped, as we read
     # distance from each reference point to our polygon (the steps at its nearest vertex)

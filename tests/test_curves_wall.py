@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from curve_shapes import circle, limacon, wobbly_circle
+from references import require
 from turnabout.curves import marks_per_frame, regular_homotopy
 from turnabout.curves.wall import mark_beads, wall_faces, wall_height_for, wall_positions
 
@@ -29,7 +30,7 @@ def test_wall_is_an_annulus_rungs_in_two_quads_rings_in_one_euler_zero(n):
 
 
 def test_triangulated_wall_agrees_with_trimesh_on_euler_number_and_boundary():
-    trimesh = pytest.importorskip("trimesh")
+    trimesh = require("trimesh")
     pts = circle(40)
     quads = wall_faces(40)
     tris = np.concatenate([quads[:, [0, 1, 2]], quads[:, [0, 2, 3]]])

@@ -26,6 +26,7 @@ import sys
 from pathlib import Path
 
 import pytest
+from references import require
 
 REPO = Path(__file__).resolve().parents[1]
 DOCS = [REPO / "README.md", *sorted((REPO / "docs").glob("*.md"))]
@@ -184,7 +185,7 @@ def test_documented_commands_run_as_written(doc, tmp_path):
         return  # a page without commands
     if any("--plot" in cmd for cmd, _ in plan):
         # a page that shows the plot extra at work needs it installed (test-core has it)
-        pytest.importorskip("matplotlib", reason=f"{doc.name} uses the 'plot' extra")
+        require("matplotlib")  # {doc.name} uses the 'plot' extra
     work = _workspace(tmp_path)
     _shims(tmp_path / "bin")
     env = dict(os.environ)

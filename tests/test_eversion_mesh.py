@@ -7,6 +7,7 @@ import math
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, mesh_for
 from turnabout.eversion import spacing as S
@@ -154,8 +155,23 @@ def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():
     mesh = mesh_for(ctl)
     times = np.array([250, 296, 330]) / (DEFAULT_FRAMES - 1)
     rep = check_animation(evaluate(ctl, times, mesh), mesh.triangles(), times=times)
+    cKDTree = require("scipy.spatial").cKDTree
+    n = ctl.strips
+    turn = 2 * np.pi / n  # docs/eversion.md section 6: every frame has the dihedral symmetry
+    a = np.pi / (2 * n)  # of order 2n, the turn by 2 pi / n and the half-turn about the
+    rz = np.array([[np.cos(turn), -np.sin(turn), 0], [np.sin(turn), np.cos(turn), 0], [0, 0, 1]])
+    u = np.array([np.cos(a), np.sin(a), 0.0])  # horizontal axis at angle pi / (2n)
+    half = 2 * np.outer(u, u) - np.eye(3)
     for fr in rep.frames:
-        assert fr.triple_point_count > 100
+        # so the triple points found are a union of orbits: mapped by either symmetry, each
+        # lands on another triple point found (an independent check of the detection, not a
+        # count taken from today's output)
+        pts = np.asarray(fr.triple_points)
+        assert len(pts) >= 2 * n
+        tree = cKDTree(pts)
+        for g in (rz, half):
+            dist, _ = tree.query(pts @ g.T)
+            assert dist.max() < 1e-6, dist.max()
         assert not any("Banchoff" in r for r in fr.reasons), fr.reasons
         # (the sampled frames are far apart: their jumps are not the motion's)
         causes = {r.split(":")[0] for r in fr.reasons} - {"jump"}

@@ -7,6 +7,7 @@ import zipfile
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.meshfiles import read_sequence
 from turnabout.meshfiles.model import MeshSequenceError, ReadLimits
@@ -83,7 +84,7 @@ def test_ply_sequence_round_trip_with_polygons(tmp_path, animated, binary):
 
 
 def test_written_files_are_read_the_same_by_trimesh(tmp_path, animated):
-    trimesh = pytest.importorskip("trimesh")
+    trimesh = require("trimesh")
     pos, faces, *_ = animated
     ply = write_ply_sequence(tmp_path / "ply", pos, faces)[2]
     obj = write_obj_sequence(tmp_path / "obj", pos, faces)[2]
@@ -94,7 +95,7 @@ def test_written_files_are_read_the_same_by_trimesh(tmp_path, animated):
 
 
 def test_reads_a_binary_ply_written_by_trimesh(tmp_path, animated):
-    trimesh = pytest.importorskip("trimesh")
+    trimesh = require("trimesh")
     pos, faces, *_ = animated
     path = tmp_path / "ext" / "f_1.ply"
     path.parent.mkdir()

@@ -16,6 +16,7 @@ import sys
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.cli import main
 from turnabout.eversion import Controls
 from turnabout.eversion.regularity import MIN_RATIO, scan
@@ -44,9 +45,7 @@ def _points():
 
 
 def _needs_dask():
-    return pytest.importorskip(
-        "distributed", reason="Dask runs need the 'sweep' extra (dask[distributed])"
-    )
+    return require("distributed")  # Dask runs need the 'sweep' extra
 
 
 # --- the grid ------------------------------------------------------------------------------
@@ -232,10 +231,18 @@ def test_the_command_reports_what_it_computed_and_reused(tmp_path, capsys):
 
 
 def test_the_plots_are_pngs_of_the_grid(tmp_path):
-    pytest.importorskip("matplotlib", reason="plots need the 'plot' extra (matplotlib)")
+    mpimg = require("matplotlib.image")
+    colormaps = require("matplotlib").colormaps
     out = _sweep(tmp_path, "p", "--workers", "2", "--plot")
-    for name in ("regular.png", "curvature.png"):
-        assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    for name, cmap in (("regular.png", "viridis"), ("curvature.png", "magma")):
+        img = mpimg.imread(out / name)
+        # (1.2 + 0.9 x 4 depths) x (1.2 + 0.5 x 2 strips) inches at 100 dpi (sweeps.plot)
+        assert img.shape == (220, 480, 4)
+        # the cells span the colour map: its two ends (the grid's least and greatest value)
+        # are both painted, each over at least part of a cell
+        for end in (0.0, 1.0):
+            colour = np.array(colormaps[cmap](end)[:3])
+            assert np.sum(np.all(np.abs(img[..., :3] - colour) < 0.02, axis=-1)) > 200, name
 
 
 @pytest.mark.parametrize(

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from references import require
 from turnabout.views import rig_math
 from turnabout.views.rig_math import RigError
 
-Rotation = pytest.importorskip("scipy.spatial.transform").Rotation
+Rotation = require("scipy.spatial.transform").Rotation
 
 
 def _axes_of(matrices):
