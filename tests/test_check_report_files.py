@@ -164,7 +164,7 @@ def test_json_report_of_the_command_matches_the_documented_schema(tmp_path, push
 
 def test_json_report_without_a_sphere_or_intersections_matches_the_schema(tmp_path):
     # a torus (chi = 0): no eversion object, no level up, no intersections checked
-    from turnabout import surfaces
+    import surfaces
 
     p, f = surfaces.torus()
     report = check_animation(np.stack([p, 1.01 * p]), f, intersections=False)
