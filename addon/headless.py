@@ -6,6 +6,7 @@ or inside ``blender -b -P tools/run_in_blender.py -- ...``.
 
 from __future__ import annotations
 
+import atexit
 import contextlib
 import ctypes
 import math
@@ -39,6 +40,17 @@ def ensure_registered() -> None:
         from . import register
 
         register()
+        if bpy.app.version < (5, 0, 0):
+            # the bpy module of Blender 4.2 crashes, and that of 4.5 hangs, when the process
+            # exits with Python operators still registered: take ours out first
+            atexit.register(_unregister_at_exit)
+
+
+def _unregister_at_exit() -> None:
+    if hasattr(bpy.types.Scene, "turnabout"):
+        from . import unregister
+
+        unregister()
 
 
 def empty_file() -> None:
