@@ -40,9 +40,9 @@ def ensure_registered() -> None:
         from . import register
 
         register()
-        if bpy.app.version < (5, 0, 0):
-            # the bpy module of Blender 4.2 crashes, and that of 4.5 hangs, when the process
-            # exits with Python operators still registered: take ours out first
+        if bpy.app.version < (5, 0, 0) and not bpy.app.binary_path:
+            # the bpy module (no Blender binary) of 4.2 crashes, and that of 4.5 hangs, when
+            # the process exits with Python operators still registered: take ours out first
             atexit.register(_unregister_at_exit)
 
 

@@ -10,16 +10,9 @@ from __future__ import annotations
 import os
 
 import pytest
-from blender_support import REPO, bpy
+from blender_support import REPO, bpy, needs_5_0_files
 
-pytestmark = [
-    pytest.mark.blender,
-    pytest.mark.slow,
-    pytest.mark.skipif(
-        bpy.app.version < (4, 5, 0),
-        reason="the samples are saved by Blender 5.0, whose file header 4.5 reads and 4.2 cannot",
-    ),
-]
+pytestmark = [pytest.mark.blender, pytest.mark.slow, needs_5_0_files]
 
 FOLDER = os.path.join(REPO, "blend_samples")
 SAMPLES = sorted(f for f in os.listdir(FOLDER) if f.endswith(".blend"))

@@ -7,7 +7,15 @@ import os
 
 import numpy as np
 import pytest
-from blender_support import REPO, blank, bpy, counts, evaluated_positions  # noqa: F401  (fixture)
+from blender_support import (
+    REPO,
+    blank,  # noqa: F401  (fixture)
+    bpy,
+    counts,
+    evaluated_positions,
+    fcurves_of,
+    needs_5_0_files,
+)
 
 pytestmark = pytest.mark.blender
 
@@ -40,6 +48,7 @@ def _open(path, tmp_path=None):
 
 
 @needs_checker
+@needs_5_0_files
 def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
     from turnabout.check import Thresholds, check_animation
 
@@ -65,13 +74,12 @@ def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
 
     # the metric curves carry the core's per-frame numbers
     table = core.metrics_table()
-    action = ob.animation_data.action
     checked = 0
     for name, values in table.items():
         values = np.asarray(values)
         if values.dtype.kind not in "fiub" or values.shape != (len(frames),):
             continue
-        fc = action.fcurve_ensure_for_datablock(ob, f'["turnabout_{name}"]')
+        fc = fcurves_of(ob).find(f'["turnabout_{name}"]')
         got_vals = np.array([fc.evaluate(f) for f in frames])
         want_vals = np.nan_to_num(values.astype(np.float64), nan=0.0, posinf=1e30, neginf=-1e30)
         want_vals = np.clip(want_vals, -1e30, 1e30)  # what an F-curve can hold
@@ -94,6 +102,7 @@ def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
 
 
 @needs_checker
+@needs_5_0_files
 def test_double_curves_become_a_curve_object_when_asked(tmp_path):
     ob = _open(BROKEN, tmp_path)
     s = bpy.context.scene.turnabout
