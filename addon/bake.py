@@ -21,6 +21,7 @@ import json
 import bpy
 import numpy as np
 from bpy.props import StringProperty
+
 from turnabout.baking.plan import (
     CACHE_CHUNK,
     BakeError,
@@ -81,16 +82,39 @@ def new_sphere_mesh(name: str, sphere, first_positions: np.ndarray, strips: int)
     return me
 
 
+# Blender 4.4 moved F-curves into a channel bag per action slot; 4.2/4.3 keep them on the
+# action itself (the manifest's minimum is 4.2).
+SLOTTED_ACTIONS = bpy.app.version >= (4, 4, 0)
+
+
+def ensure_fcurve(action, datablock, data_path: str, index: int = 0):
+    """The F-curve of ``datablock``'s ``data_path[index]`` in ``action``, with no keyframes."""
+    if SLOTTED_ACTIONS:
+        fc = action.fcurve_ensure_for_datablock(datablock, data_path, index=index)
+    else:  # Blender 4.2/4.3
+        fc = action.fcurves.find(data_path, index=index)
+        if fc is None:
+            fc = action.fcurves.new(data_path, index=index)
+    fc.keyframe_points.clear()
+    return fc
+
+
+def animated_fcurves(animation_data):
+    """The F-curves animating through ``animation_data`` (its action's, for its slot), or None."""
+    action = animation_data.action if animation_data is not None else None
+    if action is None:
+        return None
+    if not SLOTTED_ACTIONS:  # Blender 4.2/4.3
+        return action.fcurves
+    from bpy_extras import anim_utils
+
+    bag = anim_utils.action_get_channelbag_for_slot(action, animation_data.action_slot)
+    return bag.fcurves if bag is not None else None
+
+
 def _set_fcurve(action, datablock, data_path: str, frames: np.ndarray, values: np.ndarray):
     """One LINEAR F-curve on ``data_path`` through (frames, values), replacing any earlier one."""
-    if hasattr(action, "fcurve_ensure_for_datablock"):  # Blender 4.4+
-        fc = action.fcurve_ensure_for_datablock(datablock, data_path)
-        fc.keyframe_points.clear()
-    else:  # pragma: no cover - Blender 4.2/4.3
-        old = action.fcurves.find(data_path)
-        if old is not None:
-            action.fcurves.remove(old)
-        fc = action.fcurves.new(data_path)
+    fc = ensure_fcurve(action, datablock, data_path)
     n = len(frames)
     fc.keyframe_points.add(n)
     co = np.stack([np.asarray(frames, np.float32), np.asarray(values, np.float32)], axis=-1)

@@ -12,6 +12,7 @@ import sys
 import time
 
 import numpy as np
+
 from turnabout.commands.controls_options import (
     add_control_options,
     control_error_text,
@@ -246,6 +247,7 @@ def run_render(args) -> int:
     if not _bpy_or_message("render"):
         return 2
     import bpy
+
     from turnabout.frame_ranges import parse_frames
     from turnabout.output import check_output_folder
     from turnabout.progress import ProgressBar
@@ -346,6 +348,7 @@ def run_demo(args) -> int:
     if not _bpy_or_message("demo"):
         return 2
     import bpy
+
     from turnabout.output import make_output_folder
     from turnabout.progress import ProgressBar
 

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 import bpy
 import numpy as np
 from bpy.props import BoolProperty, IntProperty, StringProperty
+
 from turnabout.frame_ranges import frames_to_check
 from turnabout.output import check_output_folder, make_output_folder, resolve_blend_relative
 

@@ -6,6 +6,7 @@ or inside ``blender -b -P tools/run_in_blender.py -- ...``.
 
 from __future__ import annotations
 
+import atexit
 import contextlib
 import ctypes
 import math
@@ -16,6 +17,7 @@ from types import SimpleNamespace
 
 import bpy
 import numpy as np
+
 from turnabout.baking.plan import plan_bake, refuse_if_too_big
 from turnabout.frame_ranges import frame_path
 from turnabout.output import atomic_write, check_output_file, check_suffix, make_output_folder
@@ -39,6 +41,17 @@ def ensure_registered() -> None:
         from . import register
 
         register()
+        if bpy.app.version < (5, 0, 0) and not bpy.app.binary_path:
+            # the bpy module (no Blender binary) of 4.2 crashes, and that of 4.5 hangs, when
+            # the process exits with Python operators still registered: take ours out first
+            atexit.register(_unregister_at_exit)
+
+
+def _unregister_at_exit() -> None:
+    if hasattr(bpy.types.Scene, "turnabout"):
+        from . import unregister
+
+        unregister()
 
 
 def empty_file() -> None:

@@ -19,6 +19,7 @@ from bpy.props import (
     PointerProperty,
     StringProperty,
 )
+
 from turnabout.commands.controls_options import PANEL_LABELS as LABELS
 from turnabout.eversion import (
     DEFAULT_FRAMES,

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import bpy
+
 from turnabout.eversion import STAGE_NAMES
 
 from .bake import is_eversion_object

@@ -250,7 +250,10 @@ def _new_filter_group(name: str, n_parts: int, n_tiles: int):
 
     split = named(SPLIT_ATTR, "BOOLEAN", -900, 400)
     cut = nodes.new("GeometryNodeTriangulate")
-    cut.inputs["Quad Method"].default_value = "Fixed"  # along the first and third corners
+    if "Quad Method" in cut.inputs:  # a menu input from Blender 5.0 on
+        cut.inputs["Quad Method"].default_value = "Fixed"  # along the first and third corners
+    else:  # Blender 4.2-4.5: a node property
+        cut.quad_method = "FIXED"
     links.new(gin.outputs["Geometry"], cut.inputs["Mesh"])
     links.new(split, cut.inputs["Selection"])
     second = nodes.new("FunctionNodeCompare")

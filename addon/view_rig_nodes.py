@@ -12,7 +12,10 @@ import math
 
 import bpy
 import numpy as np
+
 from turnabout.views import rig_math
+
+from . import bake
 
 ROLE = "turnabout_view_rig"  # custom property on everything a rig makes: its role
 OWNER = "turnabout_view_owner"  # ... and the eversion object it belongs to (an ID pointer)
@@ -37,8 +40,7 @@ def tag(idblock, role: str, owner) -> None:
 
 def key(action, idblock, path: str, index: int, frames, values, interpolation: int):
     """One F-curve through (frames, values): LINEAR (1) or CONSTANT (0), in bulk."""
-    fc = action.fcurve_ensure_for_datablock(idblock, path, index=index)
-    fc.keyframe_points.clear()
+    fc = bake.ensure_fcurve(action, idblock, path, index)
     n = len(frames)
     fc.keyframe_points.add(n)
     co = np.stack([np.asarray(frames, np.float32), np.asarray(values, np.float32)], axis=-1)
@@ -336,13 +338,8 @@ def count_text(scene, ob, camera, frames, values):
 
 def animated_clip_start(camera, frames):
     """(F,) clip start of ``camera`` at ``frames`` when it is animated, else None."""
-    ad = camera.data.animation_data
-    if ad is None or ad.action is None:
-        return None
-    from bpy_extras import anim_utils
-
-    bag = anim_utils.action_get_channelbag_for_slot(ad.action, ad.action_slot)
-    fc = bag.fcurves.find("clip_start") if bag is not None else None
+    curves = bake.animated_fcurves(camera.data.animation_data)
+    fc = curves.find("clip_start") if curves is not None else None
     if fc is None or len(fc.keyframe_points) == 0:
         return None
     return np.array([fc.evaluate(float(f)) for f in frames])

@@ -27,9 +27,11 @@ import os
 
 import bpy
 import numpy as np
+
 from turnabout.views import rig_math
 from turnabout.views.rig_math import RigError
 
+from . import bake
 from . import view_rig_nodes as rig_nodes
 from .view_rig_nodes import (  # noqa: F401  (names the add-on and tests read from here)
     BAND_COLOUR,
@@ -519,17 +521,15 @@ def _count_property(ob, frames, values) -> None:
 def _drop_count_property(ob) -> None:
     """Remove the count's F-curve (and its action when the markers made it and nothing else
     is left in it) and the property."""
-    from bpy_extras import anim_utils
-
     ad = ob.animation_data
     action = ad.action if ad is not None else None
     if action is not None:
-        bag = anim_utils.action_get_channelbag_for_slot(action, ad.action_slot)
-        fc = bag.fcurves.find(f'["{COUNT_PROP}"]') if bag is not None else None
+        curves = bake.animated_fcurves(ad)
+        fc = curves.find(f'["{COUNT_PROP}"]') if curves is not None else None
         if fc is not None:
-            bag.fcurves.remove(fc)
+            curves.remove(fc)
         if action.get(ROLE) == "level count" and action.get(OWNER) == ob:
-            if bag is None or len(bag.fcurves) == 0:
+            if curves is None or len(curves) == 0:
                 ad.action = None
                 bpy.data.actions.remove(action)
             else:  # keys of the user's own live in it now: it is theirs

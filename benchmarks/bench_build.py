@@ -15,6 +15,7 @@ import time
 import tracemalloc
 
 import numpy as np
+
 from turnabout.eversion import Controls, build
 from turnabout.mesh import uniform_sphere_mesh
 

@@ -26,6 +26,7 @@ import time
 
 import numpy as np
 from timing import best_of
+
 from turnabout.check import check_animation, self_intersections
 from turnabout.check.topology import MeshTopology
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh

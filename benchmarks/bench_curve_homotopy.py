@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 from timing import best_of
+
 from turnabout.curves import marks_per_frame, regular_homotopy
 
 FRAMES, SAMPLES, REPEATS = 200, 2000, 5

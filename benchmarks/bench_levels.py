@@ -17,6 +17,7 @@ import time
 
 import numpy as np
 from timing import best_of
+
 from turnabout.eversion import Controls, evaluate, mesh_for
 from turnabout.progress import ProgressBar
 from turnabout.views.levels import level_points, level_topology

@@ -14,6 +14,7 @@ from __future__ import annotations
 import argparse
 
 from timing import best_of
+
 from turnabout.eversion import Controls, mesh_for
 from turnabout.views import surface_parts, symmetry_face_maps, symmetry_vertex_maps
 

@@ -100,6 +100,7 @@ def make_broken(path: str) -> None:
     """
     import bpy
     import numpy as np
+
     from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
     from turnabout_blender import bake, headless, look
 

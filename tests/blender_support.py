@@ -26,6 +26,25 @@ REPO = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 COUNTED = ("objects", "meshes", "materials", "shape_keys", "actions", "curves", "images")
 
 
+#: For tests that open the .blend samples: Blender 5.0 saved them, with the file header
+#: 5.0 introduced; Blender 4.5 reads it, 4.2 reports "not a blend file".
+needs_5_0_files = pytest.mark.skipif(
+    bpy.app.version < (4, 5, 0),
+    reason="the .blend samples are saved by Blender 5.0, whose file header 4.2 cannot read",
+)
+
+
+def fcurves_of(idblock):
+    """The F-curves animating ``idblock``: its action's (Blender 4.2/4.3) or, from 4.4 on,
+    those of the action's channel bag for ``idblock``'s slot."""
+    ad = idblock.animation_data
+    if bpy.app.version < (4, 4, 0):
+        return ad.action.fcurves
+    from bpy_extras import anim_utils
+
+    return anim_utils.action_get_channelbag_for_slot(ad.action, ad.action_slot).fcurves
+
+
 def fresh_file() -> None:
     """An empty file with the add-on's classes registered."""
     from turnabout_blender import headless

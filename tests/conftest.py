@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from surfaces import round_sphere
+
 from turnabout.meshfiles.npz import write_npz
 
 

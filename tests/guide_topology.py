@@ -26,6 +26,7 @@ earlier design had, admits no wave axis at all.
 from __future__ import annotations
 
 import numpy as np
+
 from turnabout.eversion import construction as C
 from turnabout.eversion.controls import Controls
 

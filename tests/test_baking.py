@@ -14,6 +14,7 @@ import struct
 
 import numpy as np
 import pytest
+
 from turnabout.baking.pc2 import PointCacheError, read_pc2, write_pc2
 from turnabout.baking.plan import (
     CACHE_CHUNK,

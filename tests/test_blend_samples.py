@@ -10,9 +10,9 @@ from __future__ import annotations
 import os
 
 import pytest
-from blender_support import REPO, bpy
+from blender_support import REPO, bpy, needs_5_0_files
 
-pytestmark = pytest.mark.blender
+pytestmark = [pytest.mark.blender, needs_5_0_files]
 
 FOLDER = os.path.join(REPO, "blend_samples")
 SAMPLES = sorted(f for f in os.listdir(FOLDER) if f.endswith(".blend"))

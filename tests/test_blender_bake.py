@@ -12,11 +12,13 @@ from blender_support import (
     bpy,
     counts,
     evaluated_positions,
+    fcurves_of,
     orphans,
     run_python,
     set_small_build,
     small_mesh,
 )
+
 from turnabout.baking.pc2 import read_pc2
 from turnabout.baking.plan import plan_bake
 from turnabout.eversion import ControlError, Controls, build, evaluate
@@ -54,7 +56,7 @@ def test_keys_every_nth_frame_and_in_between_frames_blend_linearly():
     keyed = [0, 4, 8, 12, 14]  # every 4th frame plus the last one
     key = ob.data.shape_keys
     assert len(key.key_blocks) == len(keyed)
-    fc = key.animation_data.action.fcurve_ensure_for_datablock(key, "eval_time")
+    fc = fcurves_of(key).find("eval_time")
     frames = [kp.co[0] for kp in fc.keyframe_points]
     assert frames == [1 + k for k in keyed]
     assert all(kp.interpolation == "LINEAR" for kp in fc.keyframe_points)

@@ -7,7 +7,15 @@ import os
 
 import numpy as np
 import pytest
-from blender_support import REPO, blank, bpy, counts, evaluated_positions  # noqa: F401  (fixture)
+from blender_support import (
+    REPO,
+    blank,  # noqa: F401  (fixture)
+    bpy,
+    counts,
+    evaluated_positions,
+    fcurves_of,
+    needs_5_0_files,
+)
 
 pytestmark = pytest.mark.blender
 
@@ -40,6 +48,7 @@ def _open(path, tmp_path=None):
 
 
 @needs_checker
+@needs_5_0_files
 def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
     from turnabout.check import Thresholds, check_animation
     from turnabout_blender.check_objects import MARKER_FAIL, MARKER_WORST
@@ -64,13 +73,12 @@ def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
 
     # the metric curves carry the core's per-frame numbers
     table = core.metrics_table()
-    action = ob.animation_data.action
     checked = 0
     for name, values in table.items():
         values = np.asarray(values)
         if values.dtype.kind not in "fiub" or values.shape != (len(frames),):
             continue
-        fc = action.fcurve_ensure_for_datablock(ob, f'["turnabout_{name}"]')
+        fc = fcurves_of(ob).find(f'["turnabout_{name}"]')
         got_vals = np.array([fc.evaluate(f) for f in frames])
         want_vals = np.nan_to_num(values.astype(np.float64), nan=0.0, posinf=1e30, neginf=-1e30)
         want_vals = np.clip(want_vals, -1e30, 1e30)  # what an F-curve can hold
@@ -100,6 +108,7 @@ def test_markers_sit_exactly_at_the_frames_the_core_checker_fails(tmp_path):
 
 
 @needs_checker
+@needs_5_0_files
 def test_double_curves_become_a_curve_object_when_asked(tmp_path):
     ob = _open(BROKEN, tmp_path)
     s = bpy.context.scene.turnabout
@@ -194,6 +203,7 @@ def test_the_check_reports_the_bakes_frame_times(tmp_path):
     # a bake shows time (f - frame_start) / (frames - 1) at frame f; frames past the bake
     # have no time (null)
     from blender_support import small_mesh
+
     from turnabout.baking.plan import plan_bake
     from turnabout.eversion import Controls
     from turnabout_blender import bake

@@ -12,6 +12,7 @@ from blender_support import (
     counts,
     evaluated_positions,
 )
+
 from turnabout.curves import (
     bezier_segments_from_knots,
     curve_from_bezier_segments,

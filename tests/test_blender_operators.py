@@ -19,6 +19,7 @@ from blender_support import (
     orphans,
     set_small_build,
 )
+
 from turnabout.eversion import STAGE_NAMES, Controls, build, default_depth, mesh_for
 
 pytestmark = pytest.mark.blender

@@ -10,6 +10,7 @@ import sys
 import numpy as np
 import pytest
 from blender_support import REPO, blank, bpy, evaluated_positions  # noqa: F401  (fixture)
+
 from turnabout.frame_ranges import frame_path
 
 pytestmark = pytest.mark.blender

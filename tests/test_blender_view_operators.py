@@ -101,6 +101,7 @@ def test_panel_operators_make_and_clear_the_views():
 @pytest.mark.usefixtures("blank")
 def test_a_rebuilt_eversion_keeps_its_view_on_the_new_bake_without_orphans():
     from blender_support import orphans, set_small_build
+
     from turnabout.views.parts import surface_parts
 
     s = bpy.context.scene.turnabout

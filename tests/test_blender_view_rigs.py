@@ -8,7 +8,13 @@ import json
 
 import numpy as np
 import pytest
-from blender_support import blank, bpy, run_python  # noqa: F401  (fixture used by name)
+from blender_support import (
+    blank,  # noqa: F401  (fixture used by name)
+    bpy,
+    fcurves_of,
+    run_python,
+)
+
 from turnabout.frame_ranges import frame_path
 
 pytestmark = pytest.mark.blender
@@ -160,6 +166,7 @@ def _colour_masks(rgba):
 @pytest.mark.usefixtures("blank")
 def test_level_markers_show_where_the_points_project_and_the_count_is_animated(tmp_path):
     from scipy import ndimage
+
     from turnabout.views.levels import level_points
     from turnabout_blender import headless, view_rigs
 
@@ -175,7 +182,7 @@ def test_level_markers_show_where_the_points_project_and_the_count_is_animated(t
     for f in (1, 6, 12, 18, 24):
         scene.frame_set(f)
         assert ob[view_rigs.COUNT_PROP] == levels.signed_count[f - 1] == 1
-    fc = ob.animation_data.action.fcurve_ensure_for_datablock(ob, '["turnabout_signed_count"]')
+    fc = fcurves_of(ob).find('["turnabout_signed_count"]')
     assert len(fc.keyframe_points) == 24
     assert all(k.interpolation == "CONSTANT" for k in fc.keyframe_points)
     assert "Gauss map" in ob.id_properties_ui(view_rigs.COUNT_PROP).as_dict()["description"]
@@ -433,7 +440,4 @@ def test_removing_the_count_keeps_the_objects_own_keyframes():
 
 
 def _fcurves(ob):
-    from bpy_extras import anim_utils
-
-    ad = ob.animation_data
-    return list(anim_utils.action_get_channelbag_for_slot(ad.action, ad.action_slot).fcurves)
+    return list(fcurves_of(ob))

@@ -8,6 +8,7 @@ import json
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.check import (
     AnimationReport,
     CheckInputError,

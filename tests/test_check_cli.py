@@ -9,6 +9,7 @@ import sys
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.cli import main
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.meshfiles.npz import write_npz

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+
 from turnabout.check import Thresholds, check_animation, signed_volume
 from turnabout.check.metrics import frame_metrics, reference_frame
 from turnabout.check.topology import MeshTopology

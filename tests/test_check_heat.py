@@ -6,6 +6,7 @@ docs/addon.md: "blue to yellow below, red at or above" the failure threshold.
 from __future__ import annotations
 
 import numpy as np
+
 from turnabout.check.heat import COOL, FAILING, WARM, heat_colours
 
 

@@ -8,6 +8,7 @@ import sys
 import numpy as np
 import pytest
 import surfaces
+
 from turnabout.check import check_animation, self_intersections
 from turnabout.check.intersections import grid_candidate_pairs
 from turnabout.check.topology import MeshTopology

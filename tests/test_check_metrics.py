@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 import surfaces
 from references import require
+
 from turnabout.check import gauss_map_degree, signed_volume
 from turnabout.check.curvature import mean_and_gaussian_curvature, principal_curvatures
 from turnabout.check.metrics import frame_metrics, reference_frame

@@ -10,6 +10,7 @@ import sys
 import numpy as np
 import pytest
 import surfaces
+
 from turnabout.check import check_animation
 from turnabout.check.quadruple import quadruple_points
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh

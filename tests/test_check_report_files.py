@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.check import check_animation
 from turnabout.cli import main
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh

@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import surfaces
+
 from turnabout.check import Thresholds, check_animation, self_intersections
 from turnabout.check.metrics import frame_metrics, reference_frame
 from turnabout.check.topology import MeshTopology

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 import surfaces
 from references import require
+
 from turnabout.check import topology_report
 from turnabout.check.topology import MeshTopology
 
@@ -126,6 +127,7 @@ def test_component_labels_match_scipys_connected_components():
     # isolated nodes and long chains (the worst case for label propagation)
     scipy_graph = require("scipy.sparse.csgraph")
     from scipy.sparse import coo_matrix
+
     from turnabout.check.topology import component_labels
 
     rng = np.random.default_rng(7)

@@ -20,6 +20,7 @@ import numpy as np
 import pytest
 from cli_support import REPO, cli_env, run_cli
 from surfaces import round_sphere
+
 from turnabout.cli import build_parser, main
 
 CONTROL_OPTIONS = {

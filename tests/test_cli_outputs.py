@@ -23,6 +23,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from cli_support import REPO, cli_env, run_cli
+
 from turnabout import output
 from turnabout.cli import main
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 from curve_shapes import circle, ellipse, figure_eight, limacon
+
 from turnabout.cli import main
 
 

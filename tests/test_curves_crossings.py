@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from curve_shapes import circle, curl, figure_eight, limacon, random_fourier_curve
+
 from turnabout.curves import crossing_pairs, self_crossings, turning_number, whitney_check
 
 

@@ -21,6 +21,7 @@ from curve_shapes import (
     lopsided_figure_eight,
     wobbly_circle,
 )
+
 from turnabout.curves import (
     CurveError,
     HomotopyRefused,

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 from curve_shapes import circle, curl, figure_eight, lopsided_figure_eight, params
+
 from turnabout.curves import mark_events, marks_per_frame, regular_homotopy, track_marks
 
 

@@ -6,6 +6,7 @@ import os
 
 import numpy as np
 import pytest
+
 from turnabout.cli import main
 from turnabout.curves import read_svg_curves, turning_number, whitney_check
 

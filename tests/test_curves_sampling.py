@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 from curve_shapes import circle, curl, ellipse, limacon
 from references import require
+
 from turnabout.curves import (
     MAX_POINTS,
     CurveError,

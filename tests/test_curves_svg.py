@@ -11,6 +11,7 @@ import sys
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.curves import (
     CurveError,
     curve_from_svg,

@@ -23,6 +23,7 @@ from curve_shapes import (
     random_fourier_curve,
     wobbly_circle,
 )
+
 from turnabout.curves import (
     resample_by_arc_length,
     tangent_angles,

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from curve_shapes import circle, limacon, wobbly_circle
 from references import require
+
 from turnabout.curves import marks_per_frame, regular_homotopy
 from turnabout.curves.wall import mark_beads, wall_faces, wall_height_for, wall_positions
 

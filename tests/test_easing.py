@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+
 from turnabout.easing import quintic_step
 
 REPO = Path(__file__).resolve().parents[1]

@@ -7,6 +7,7 @@ import os
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.cli import main
 from turnabout.eversion import ControlError, Controls, build, check_resolution, evaluate
 from turnabout.eversion import construction as C

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.eversion import Controls
 from turnabout.eversion.construction import FrameEvaluator, surface
 from turnabout.mesh import uniform_sphere_mesh

@@ -8,6 +8,7 @@ import math
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.cli import main
 from turnabout.eversion import DEFAULT_FRAMES, ControlError, Controls, mesh_for
 from turnabout.eversion import spacing as S

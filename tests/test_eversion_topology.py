@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 from guide_topology import latitude_direction_zeros, tangent_sweep_class
+
 from turnabout.eversion import Controls
 from turnabout.eversion.construction import P_CENTRE, turn_at
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 
 import pytest
+
 from turnabout.frame_ranges import FrameRangeError, frame_path, frames_to_check, parse_frames
 
 

@@ -8,6 +8,7 @@ import zipfile
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
 from turnabout.meshfiles import read_sequence
 from turnabout.meshfiles.model import MeshSequenceError, ReadLimits

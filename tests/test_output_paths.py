@@ -10,6 +10,7 @@ from __future__ import annotations
 import os
 
 import pytest
+
 from turnabout.check.report import report_paths
 from turnabout.output import (
     OutputError,

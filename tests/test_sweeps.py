@@ -17,6 +17,7 @@ import sys
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.cli import main
 from turnabout.eversion import Controls
 from turnabout.eversion.regularity import MIN_RATIO, scan

@@ -21,6 +21,7 @@ import sys
 import numpy as np
 import pytest
 from level_shapes import icosphere, octahedron, subdivided_cube, torus, torus_chain
+
 from turnabout.check.metrics import gauss_map_degree
 from turnabout.check.topology import topology_report
 from turnabout.eversion import Controls, evaluate, mesh_for

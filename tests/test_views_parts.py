@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+
 from turnabout.eversion import Controls, evaluate, mesh_for
 from turnabout.eversion.construction import WAVE_END_LAT
 from turnabout.mesh import uniform_sphere_mesh

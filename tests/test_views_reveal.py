@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+
 from turnabout.eversion import STAGE_NAMES, Controls, mesh_for
 from turnabout.mesh import uniform_sphere_mesh
 from turnabout.views import (

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from references import require
+
 from turnabout.views import rig_math
 from turnabout.views.rig_math import RigError
 

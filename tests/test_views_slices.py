@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 import pytest
+
 from turnabout.eversion import DEFAULT_FRAMES, Controls, evaluate, mesh_for
 from turnabout.mesh import SphereMesh, uniform_sphere_mesh
 from turnabout.views import (
