@@ -168,7 +168,9 @@ def _metric_paths(ob) -> list[str]:
     if ad is None or ad.action is None:
         return []
     paths = []
-    for layer in ad.action.layers:
+    if not hasattr(ad.action, "layers"):  # Blender 4.2/4.3: flat actions
+        paths = [fc.data_path for fc in ad.action.fcurves]
+    for layer in getattr(ad.action, "layers", ()):
         for strip in layer.strips:
             for bag in strip.channelbags:
                 paths += [fc.data_path for fc in bag.fcurves]
