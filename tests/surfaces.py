@@ -2,6 +2,8 @@
 faces (M, 3) int32).
 
 - :func:`round_sphere` and :func:`torus`: closed orientable meshes.
+- :func:`sphere_with_a_seam`: a UV sphere as exporters write it, the seam column stored twice,
+  as polygons (for welding).
 - :func:`boy_surface` (Bryant–Kusner parametrisation), :func:`roman_surface` (Steiner) and
   :func:`cross_cap`: closed meshes of the real projective plane RP^2, built as the quotient of
   a centrally symmetric sphere mesh by the antipodal map, then mapped into space by an even
@@ -194,3 +196,25 @@ def cross_cap(n: int = 40) -> tuple[np.ndarray, np.ndarray]:
     p, faces = projective_plane_mesh(n)
     x, y, z = p.T
     return np.stack([y * z, 2 * x * y, x * x - y * y], axis=1), faces
+
+
+def sphere_with_a_seam(n_lon: int = 10, n_lat: int = 6, exact_copies: bool = True):
+    """Two frames of a UV sphere whose seam column is stored twice (as UV-unwrapped exports
+    have), as polygons: positions (2, V, 3) float32 and a list of index arrays (quads between
+    rings, triangles at the poles). With ``exact_copies`` the repeated column is a
+    bit-identical copy of the first; otherwise it is computed at longitude 2 pi."""
+    lon = np.linspace(0, 2 * np.pi, n_lon + 1)  # the last column repeats the first
+    lat = np.linspace(-np.pi / 2, np.pi / 2, n_lat + 2)[1:-1]
+    lo, la = np.meshgrid(lon, lat, indexing="ij")
+    ring = np.stack([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)], -1)
+    if exact_copies:
+        ring[-1] = ring[0]
+    pts = np.vstack([ring.reshape(-1, 3), [[0, 0, -1]], [[0, 0, 1]]])
+    idx = np.arange((n_lon + 1) * n_lat).reshape(n_lon + 1, n_lat)
+    quads = [[idx[i, j], idx[i + 1, j], idx[i + 1, j + 1], idx[i, j + 1]]
+             for i in range(n_lon) for j in range(n_lat - 1)]  # fmt: skip
+    south, north = len(pts) - 2, len(pts) - 1
+    tris = [[south, idx[i + 1, 0], idx[i, 0]] for i in range(n_lon)]
+    tris += [[idx[i, -1], idx[i + 1, -1], north] for i in range(n_lon)]
+    polys = [np.array(q) for q in quads + tris]
+    return np.stack([pts, 1.5 * pts]).astype(np.float32), polys

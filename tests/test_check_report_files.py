@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import surfaces
 from references import require
 
 from turnabout.check import check_animation
@@ -165,8 +166,6 @@ def test_json_report_of_the_command_matches_the_documented_schema(tmp_path, push
 
 def test_json_report_without_a_sphere_or_intersections_matches_the_schema(tmp_path):
     # a torus (chi = 0): no eversion object, no level up, no intersections checked
-    import surfaces
-
     p, f = surfaces.torus()
     report = check_animation(np.stack([p, 1.01 * p]), f, intersections=False)
     data = json.loads(report.write_json(tmp_path / "t.json").read_text(encoding="utf-8"))
@@ -222,25 +221,6 @@ def test_plot_png_decodes_to_a_figure_shading_exactly_the_failing_frames(tmp_pat
 # --------------------------------------------------------------- welding
 
 
-def _sphere_with_a_seam(n_lon=10, n_lat=6):
-    """Two frames of a UV sphere whose seam column is stored twice (as UV exports do), as
-    polygons; positions (2, V, 3) float32."""
-    lon = np.linspace(0, 2 * np.pi, n_lon + 1)  # the last column repeats the first
-    lat = np.linspace(-np.pi / 2, np.pi / 2, n_lat + 2)[1:-1]
-    lo, la = np.meshgrid(lon, lat, indexing="ij")
-    ring = np.stack([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)], -1)
-    ring[-1] = ring[0]  # bit-identical copies, as an exporter writes them
-    pts = np.vstack([ring.reshape(-1, 3), [[0, 0, -1]], [[0, 0, 1]]])
-    idx = np.arange((n_lon + 1) * n_lat).reshape(n_lon + 1, n_lat)
-    quads = [[idx[i, j], idx[i + 1, j], idx[i + 1, j + 1], idx[i, j + 1]]
-             for i in range(n_lon) for j in range(n_lat - 1)]  # fmt: skip
-    south, north = len(pts) - 2, len(pts) - 1
-    tris = [[south, idx[i + 1, 0], idx[i, 0]] for i in range(n_lon)]
-    tris += [[idx[i, -1], idx[i + 1, -1], north] for i in range(n_lon)]
-    polys = [np.array(q) for q in quads + tris]
-    return np.stack([pts, 1.5 * pts]).astype(np.float32), polys
-
-
 def _distinct_points(positions: np.ndarray) -> int:
     """Vertices distinct in some frame: unique rows of each vertex's whole trajectory."""
     traj = np.ascontiguousarray(positions.transpose(1, 0, 2).reshape(positions.shape[1], -1))
@@ -248,7 +228,7 @@ def _distinct_points(positions: np.ndarray) -> int:
 
 
 def test_weld_merges_exactly_the_coincident_vertices_and_keeps_every_corner(tmp_path):
-    frames, polys = _sphere_with_a_seam()
+    frames, polys = surfaces.sphere_with_a_seam()
     write_obj_sequence(tmp_path / "obj", frames, polys)
     distinct = _distinct_points(frames)
     assert distinct < frames.shape[1]  # the case has duplicates to merge

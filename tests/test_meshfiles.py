@@ -7,6 +7,7 @@ import zipfile
 
 import numpy as np
 import pytest
+import surfaces
 from references import require
 
 from turnabout.mesh import round_sphere_positions, uniform_sphere_mesh
@@ -199,19 +200,7 @@ def test_unknown_extension_lists_the_allowed_ones(tmp_path):
 def test_welding_merges_seam_duplicates_only(tmp_path):
     # a sphere with a duplicated seam column (as UV-unwrapped exports have)
     n_lon, n_lat = 10, 6
-    lon = np.linspace(0, 2 * np.pi, n_lon + 1)  # last column repeats the first
-    lat = np.linspace(-np.pi / 2, np.pi / 2, n_lat + 2)[1:-1]
-    lo, la = np.meshgrid(lon, lat, indexing="ij")
-    ring = np.stack([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)], -1)
-    pts = np.vstack([ring.reshape(-1, 3), [[0, 0, -1]], [[0, 0, 1]]])
-    idx = np.arange((n_lon + 1) * n_lat).reshape(n_lon + 1, n_lat)
-    quads = [[idx[i, j], idx[i + 1, j], idx[i + 1, j + 1], idx[i, j + 1]]
-             for i in range(n_lon) for j in range(n_lat - 1)]  # fmt: skip
-    south, north = len(pts) - 2, len(pts) - 1
-    tris = [[south, idx[i + 1, 0], idx[i, 0]] for i in range(n_lon)]
-    tris += [[idx[i, -1], idx[i + 1, -1], north] for i in range(n_lon)]
-    polys = [np.array(q) for q in quads + tris]
-    frames = np.stack([pts, 1.5 * pts]).astype(np.float32)
+    frames, polys = surfaces.sphere_with_a_seam(n_lon, n_lat, exact_copies=False)
     write_obj_sequence(tmp_path, frames, polys)
     welded = read_sequence(tmp_path, weld=True)
     assert welded.n_vertices == n_lon * n_lat + 2  # exactly the seam column merged
