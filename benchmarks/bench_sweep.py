@@ -58,11 +58,16 @@ def main() -> None:
     try:
         from distributed import Client, LocalCluster
 
-        with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                          dashboard_address="127.0.0.1:0", silence_logs=40) as cl, \
-                Client(cl) as client:  # fmt: skip
-            client.submit(abs, 1).result()  # workers up before the clock starts
-            runs["dask LocalCluster, 2 workers"] = timed(client=client)
+        from turnabout.cluster import local_worker_environment
+
+        for n in (1, 2):
+            with local_worker_environment(), LocalCluster(
+                n_workers=n, threads_per_worker=1, processes=True,
+                dashboard_address="127.0.0.1:0", silence_logs=40,
+            ) as cl, Client(cl) as client:  # fmt: skip
+                client.wait_for_workers(n)
+                client.submit(abs, 1).result()  # workers up before the clock starts
+                runs[f"dask LocalCluster, {n} worker{'s' * (n > 1)}"] = timed(client=client)
     except ImportError:
         print("(dask.distributed not installed: Dask runner skipped)")
 
@@ -70,10 +75,15 @@ def main() -> None:
     print(f"one direct scan: {single:.3f} s")
     for name, t in runs.items():
         print(f"{name:30s} {t:7.2f} s   per point / direct scan = {t / len(pts) / single:.2f}")
-    base = runs["local, 1 worker"]
-    for name, t in runs.items():
-        if name != "local, 1 worker":
-            print(f"speed-up of {name} over 1 worker: {base / t:.2f}")
+    for runner in ("local", "dask LocalCluster"):
+        one, two = runs.get(f"{runner}, 1 worker"), runs.get(f"{runner}, 2 workers")
+        if one and two:
+            print(f"speed-up of {runner}, 2 workers over 1: {one / two:.2f}")
+    if "dask LocalCluster, 2 workers" in runs:
+        print(
+            "speed-up of dask LocalCluster, 2 workers over local, 1 worker: "
+            f"{runs['local, 1 worker'] / runs['dask LocalCluster, 2 workers']:.2f}"
+        )
 
 
 if __name__ == "__main__":
