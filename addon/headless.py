@@ -59,6 +59,21 @@ def empty_file() -> None:
     ensure_registered()
     # rendered frames land beside the .blend rather than in a system folder
     bpy.context.scene.render.filepath = "//render/"
+    repeatable_image_metadata(bpy.context.scene)
+
+
+def repeatable_image_metadata(scene) -> None:
+    """Leave the wall-clock date, the render time and the frame number out of the images'
+    metadata, so a frame's PNG is the same bytes however and whenever it is rendered.
+
+    Blender writes all three into every PNG by default. The date and render time change
+    from run to run; the frame number is padded to the digits of the last frame rendered, so
+    a chunk ending at frame 6 wrote "1" where the whole range wrote "01". The pixels never
+    differed. The frame number stays in the file name; the other fields (scene, camera,
+    file name) depend on the file alone.
+    """
+    r = scene.render
+    r.use_stamp_date = r.use_stamp_render_time = r.use_stamp_frame = False
 
 
 def look_settings(outer=OUTER_COLOUR, inner=INNER_COLOUR, strips=False, tint=GUIDE_TINT):
@@ -158,7 +173,9 @@ def configure_render(
     r.film_transparent = transparent
     r.image_settings.file_format = "PNG"
     r.image_settings.color_mode = "RGBA"
-    r.use_file_extension = False
+    # a saved scene renders on a farm as frame_0001.png; _render_still turns this off for
+    # the moment it writes to a temporary name
+    r.use_file_extension = True
     scene.view_settings.view_transform = "Standard"  # the side colours as chosen
     if engine == "cycles":
         scene.cycles.device = "CPU"
@@ -202,9 +219,14 @@ def blender_output_silenced():
 
 def _render_still(scene, tmp: str) -> None:
     """Render the scene's current frame from its camera into the file ``tmp``."""
-    scene.render.filepath = tmp
-    with blender_output_silenced():
-        bpy.ops.render.render(write_still=True, scene=scene.name)
+    r = scene.render
+    extension = r.use_file_extension
+    r.filepath, r.use_file_extension = tmp, False  # write exactly to tmp
+    try:
+        with blender_output_silenced():
+            bpy.ops.render.render(write_still=True, scene=scene.name)
+    finally:
+        r.use_file_extension = extension
     if os.path.getsize(tmp) == 0:  # the writer made it empty: nothing was rendered into it
         raise HeadlessError(f"render: Blender wrote no image for frame {scene.frame_current}")
 
@@ -221,6 +243,7 @@ def render_frames(
     made if missing (its parent must exist).
     """
     make_output_folder(out_dir, "output folder")
+    repeatable_image_metadata(scene)
     if scene.camera is None:
         raise HeadlessError("scene: has no camera to render from")
     rendered, skipped = [], []

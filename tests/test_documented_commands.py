@@ -4,9 +4,11 @@ The ```sh blocks of README.md and every docs/*.md (found afresh each run, so new
 covered without touching this file) are read line by line. Each command runs through
 ``bash -o pipefail`` in a fresh folder per document, in document order (so a command can
 read what an earlier one wrote), with the repository's ``addon/``, ``core/`` and
-``docs/examples/`` copied in. ``turnabout``, ``python`` and ``blender -b -P SCRIPT --`` are
-small shims onto this interpreter (the bpy module stands in for the Blender program). Each
-must exit 0, or the code its comment documents (``# exit 1``).
+``docs/examples/`` copied in. ``turnabout``, ``python`` and ``blender`` (``-b [FILE]``, ``-o``,
+``-s``, ``-e``, ``-a``, ``-P SCRIPT --``) are small shims onto this interpreter (the bpy module
+stands in for the Blender program). A line may feed values to one of them through
+``printf ... | xargs -P N -I NAME`` (a parallel shell loop), or compare two folders with
+``diff -r``. Each must exit 0, or the code its comment documents (``# exit 1``).
 
 A line that is not one of those commands must be listed in NOT_RUN with the reason; any
 other line fails the test, so nothing is skipped silently.
@@ -50,8 +52,15 @@ LONG_FORMS = {
 }
 FULL = os.environ.get("TURNABOUT_DOCS_FULL") == "1"
 
-RUNNABLE = re.compile(r"^(turnabout\s|python (addon/)?build\.py|blender -b -P )")
-NEEDS_BPY = re.compile(r"^(turnabout (scene|render|demo)\b|python (addon/)?build\.py|blender )")
+# A line may also feed a list of values to one of those commands through xargs (a shell
+# loop that runs chunks of work in parallel), or compare two output folders with diff.
+_XARGS = r"printf '[^']*'( [-\w]+)+ \| xargs (-P \d+ )?-I \w+ "
+RUNNABLE = re.compile(
+    rf"^({_XARGS})?(turnabout\s|python (addon/)?build\.py|blender -b )|^diff -r [\w./-]+ [\w./-]+$"
+)
+NEEDS_BPY = re.compile(
+    rf"^({_XARGS})?(turnabout (scene|render|demo)\b|python (addon/)?build\.py|blender )"
+)
 EXIT = re.compile(r"\bexit (\d+)\b")  # in the line's comment: "# exit 1", "...; exit 1"
 
 
@@ -78,8 +87,12 @@ def split_commands(line: str) -> list[str]:
     return [part.strip() for part in line.split("&&")]
 
 
+_COMMENT = re.compile(r"(?:^|\s)#")
+
+
 def _command_part(cmd: str) -> str:
-    return cmd.split("#", 1)[0].strip()
+    # a shell comment starts at a "#" after a blank ("frame_####" is part of a word)
+    return _COMMENT.split(cmd, 1)[0].strip()
 
 
 def planned(path: Path) -> list[tuple[str, int]]:
@@ -95,7 +108,7 @@ def planned(path: Path) -> list[tuple[str, int]]:
                     f"{path.name}: unknown command {cmd!r}: make it run here, or list it in "
                     "NOT_RUN with the reason"
                 )
-            m = EXIT.search(cmd.partition("#")[2])
+            m = EXIT.search((_COMMENT.split(cmd, 1) + [""])[1])
             code = int(m.group(1)) if m else 0
             run = bare
             if not FULL:
@@ -120,24 +133,50 @@ def _params():
     return out
 
 
+# The Blender program's command line, in the order Blender reads it, with the bpy module
+# standing in for the program: -b [FILE] (background, open FILE), -o PATH (output path),
+# -s N / -e N (first / last frame), -a (render the animation with the file's settings),
+# -P SCRIPT -- ARGS (run a script). Anything else is refused, so a page cannot show an option
+# this test does not run.
+BLENDER_SHIM = """\
+import runpy, sys
+args = sys.argv[1:]
+i = 0
+while i < len(args):
+    a = args[i]
+    if a == "-b":
+        if i + 1 < len(args) and not args[i + 1].startswith("-"):
+            import bpy
+            bpy.ops.wm.open_mainfile(filepath=args[i + 1], load_ui=False)
+            i += 1
+    elif a == "-o":
+        import bpy
+        bpy.context.scene.render.filepath = args[i + 1]
+        i += 1
+    elif a in ("-s", "-e"):
+        import bpy
+        setattr(bpy.context.scene, "frame_start" if a == "-s" else "frame_end", int(args[i + 1]))
+        i += 1
+    elif a == "-a":
+        import bpy
+        bpy.ops.render.render(animation=True)
+    elif a == "-P":
+        sys.argv = [args[i + 1]] + (args[args.index("--") + 1:] if "--" in args else [])
+        runpy.run_path(args[i + 1], run_name="__main__")
+        sys.exit(0)
+    else:
+        sys.exit(f"blender shim: unsupported option {a}")
+    i += 1
+"""
+
+
 def _shims(bindir: Path) -> None:
     py = sys.executable
     bindir.mkdir()
     (bindir / "turnabout").write_text(f'#!/bin/sh\nexec "{py}" -m turnabout.cli "$@"\n')
     (bindir / "python").write_text(f'#!/bin/sh\nexec "{py}" "$@"\n')
-    (bindir / "blender").write_text(
-        "#!/bin/sh\n"
-        "# blender -b -P SCRIPT -- ARGS, with the bpy module standing in for the program\n"
-        "while [ $# -gt 0 ]; do\n"
-        '  case "$1" in\n'
-        "    -b) shift ;;\n"
-        '    -P) script="$2"; shift 2 ;;\n'
-        "    --) break ;;\n"
-        '    *) echo "blender shim: unsupported option $1" >&2; exit 97 ;;\n'
-        "  esac\n"
-        "done\n"
-        f'exec "{py}" "$script" "$@"\n'
-    )
+    (bindir / "blender_shim.py").write_text(BLENDER_SHIM)
+    (bindir / "blender").write_text(f'#!/bin/sh\nexec "{py}" "{bindir / "blender_shim.py"}" "$@"\n')
     for f in bindir.iterdir():
         f.chmod(0o755)
 
@@ -166,12 +205,14 @@ def test_the_extractor_reads_blocks_chains_and_documented_codes(tmp_path):
         "text\n```sh\nturnabout build --out a.npz   # note\n"
         "turnabout curve morph a.svg b.svg --out x.npz  # exit 1: different\n"
         "turnabout check f/   # numbered files; exit 1\n"
+        "blender -b s.blend -o //f/frame_#### -a  # the frames\n"
         "python3.11 -m pytest\n```\n```python\nturnabout = 1\n```\n"
     )
     assert planned(page) == [
         ("turnabout build --out a.npz", 0),
         ("turnabout curve morph a.svg b.svg --out x.npz", 1),
         ("turnabout check f/", 1),
+        ("blender -b s.blend -o //f/frame_#### -a", 0),
     ]
     page.write_text("```sh\nmake everything\n```\n")
     with pytest.raises(AssertionError, match="unknown command"):
