@@ -77,9 +77,7 @@ def test_the_button_is_an_undoable_registered_operator():
 
 @pytest.mark.parametrize("strips", [8, 12, 16])
 @pytest.mark.usefixtures("blank")
-def test_the_button_fills_depth_windows_and_frames_from_the_core_for_the_strip_count(
-    strips, capfd
-):
+def test_the_button_fills_depth_windows_and_frames_from_the_core_for_the_strip_count(strips, capfd):
     s = bpy.context.scene.turnabout
     _untuned_panel(s, strips)
     others = _read(s, LEFT_ALONE)
