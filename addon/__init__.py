@@ -14,6 +14,7 @@ import importlib
 _CLASS_MODULES = (
     "props",
     "bake",
+    "tuned_controls",
     "look",
     "check_objects",
     "clear_check",

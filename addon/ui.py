@@ -23,7 +23,9 @@ class TURNABOUT_PT_build(_SidebarPanel, bpy.types.Panel):
     def draw(self, context):
         s = context.scene.turnabout
         col = self.layout.column(align=False)
-        col.prop(s, "strips")
+        row = col.row(align=True)
+        row.prop(s, "strips")
+        row.operator("turnabout.use_tuned_controls", icon="PRESET")
         row = col.row(align=True)
         row.prop(s, "auto_depth")
         sub = row.row()

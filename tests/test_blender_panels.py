@@ -178,6 +178,20 @@ def test_rebuild_and_load_buttons_are_live_exactly_when_an_eversion_is_active(dr
         assert layouts["polls"]["turnabout.rebuild"] == eversion, state
 
 
+def test_the_tuned_values_button_sits_beside_the_strips_and_is_live_in_every_state(drawn):
+    # the strip count it reads is never greyed out, so neither is the button
+    for state, layouts in drawn.items():
+        calls = layouts["TURNABOUT_PT_build"].calls
+        drawn_on = {}
+        for call, given, where in calls:
+            name = given.get("property") if call == "prop" else given.get("operator")
+            drawn_on.setdefault(name, []).append(where)
+        strips, button = drawn_on["strips"], drawn_on["turnabout.use_tuned_controls"]
+        assert len(strips) == len(button) == 1, state
+        assert button[0] is strips[0], f"not on the strip count's row in {state!r}"
+        assert button[0].shown_enabled() and strips[0].shown_enabled(), state
+
+
 def test_every_addon_operator_is_reachable_from_a_panel_or_the_add_menu(drawn):
     shown = set()
     for layouts in drawn.values():
