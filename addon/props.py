@@ -264,12 +264,21 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
 TURNABOUT_PG_settings.__annotations__.update(_stage_annotations())
 
 
+def _panel_float(value) -> float:
+    """A panel float as the decimal the user typed: Blender keeps float properties in single
+    precision (0.13 comes back as 0.12999999523), and the core's range and windows are
+    decimals. Single precision is within 6e-8 of any value in [0, 1], so six decimals give
+    back every value typed with up to six."""
+    return round(float(value), 6)
+
+
 def controls_from_settings(settings):
     """A validated Controls from the scene settings (raises the core's ControlError)."""
     timing = {
-        s: (getattr(settings, f"{s}_start"), getattr(settings, f"{s}_end")) for s in STAGE_NAMES
+        s: tuple(_panel_float(getattr(settings, f"{s}_{end}")) for end in ("start", "end"))
+        for s in STAGE_NAMES
     }
-    depth = None if settings.auto_depth else settings.depth
+    depth = None if settings.auto_depth else _panel_float(settings.depth)
     return Controls(strips=int(settings.strips), depth=depth, timing=timing)
 
 

@@ -120,10 +120,27 @@ def test_a_build_after_the_button_records_the_tuned_controls(strips):
     assert c["depth"] == pytest.approx(want["depth"], rel=F32)
     got = {f"{st}_{e}": c["timing"][st][i] for st in core.STAGE_NAMES
            for i, e in enumerate(("start", "end"))}  # fmt: skip
-    assert got == pytest.approx({k: want[k] for k in WINDOWS}, rel=F32)
+    # the panel's single-precision copies are read back as the core's decimals, exactly
+    assert got == {k: want[k] for k in WINDOWS}
     assert record["frames"] == want["frames"]
     scene = bpy.context.scene
     assert (scene.frame_start, scene.frame_end) == (5, 5 + want["frames"] - 1)
+
+
+@pytest.mark.parametrize("end", [0, 1])
+@pytest.mark.usefixtures("blank")
+def test_a_depth_typed_at_either_end_of_the_range_builds(end):
+    # Blender keeps 0.13 as 0.12999999523 (single precision); the core's range is inclusive
+    from turnabout_blender.props import controls_from_settings
+
+    s = bpy.context.scene.turnabout
+    s.auto_depth, s.depth = False, core.depth_range()[end]
+    assert s.depth != core.depth_range()[end]  # not exact in single precision
+    assert controls_from_settings(s).depth == core.depth_range()[end]
+    s.frames, s.key_step, s.mesh_lon, s.mesh_lat = 8, 4, 64, 16
+    assert bpy.ops.turnabout.add_eversion() == {"FINISHED"}
+    record = json.loads(bpy.context.active_object["turnabout"])
+    assert record["controls"]["depth"] == core.depth_range()[end]
 
 
 @pytest.mark.usefixtures("blank")
