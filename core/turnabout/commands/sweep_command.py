@@ -94,6 +94,10 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     )  # fmt: skip
     _run_options(p, "sweep-results")
     p.add_argument(
+        "--large-grid", action="store_true",
+        help=f"confirm a grid of more than {G.LARGE_GRID:,} points (refused without it)",
+    )  # fmt: skip
+    p.add_argument(
         "--plot", action="store_true",
         help="also write regular.png and curvature.png over strips x depth (needs matplotlib)",
     )  # fmt: skip
@@ -192,11 +196,13 @@ def run_sweep_command(args) -> int:
                     "--table: gives the points itself; leave out --strips, --depth and the "
                     "stage windows"
                 )
-            points = G.read_table(args.table)
+            points = G.read_table(args.table, args.large_grid)
         else:
-            strips = G.parse_values("--strips", args.strips or str(MIN_STRIPS), integer=True)
-            depths = G.parse_values("--depth", args.depth) if args.depth else None
-            points = G.grid_points(strips, depths, _windows(args))
+            strips = G.parse_values(
+                "--strips", str(MIN_STRIPS) if args.strips is None else args.strips, integer=True
+            )
+            depths = None if args.depth is None else G.parse_values("--depth", args.depth)
+            points = G.grid_points(strips, depths, _windows(args), args.large_grid)
         spec = _check_run_options(args)
         if args.plot:
             try:

@@ -33,6 +33,9 @@ from ..eversion.regularity import QUICK_GRID, scan_grid_problem
 SCAN_KINDS = ("quick", "full")
 FULL_GRID = (720, 361, 400)  # the full scan of ``turnabout build --scan-only``
 MAX_POINTS = 100_000
+# Above this many points a sweep needs a confirming flag (--large-grid): at about 3 s a quick
+# scan, 10,000 points are some 8 hours of one core, easy to ask for by a typo in a range.
+LARGE_GRID = 10_000
 MAX_TABLE_BYTES = 10_000_000
 
 
@@ -81,6 +84,10 @@ def _number(option: str, text: str) -> float:
 
 def parse_values(option: str, text: str, integer: bool = False) -> list[float] | list[int]:
     """Values of ``V,V,...`` with START:STOP:COUNT ranges (see the module's docstring)."""
+    if not text.strip():
+        raise SweepInputError(
+            f"{option}: an empty list; give values separated by commas, or leave the option out"
+        )
     out: list = []
     for item in text.split(","):
         item = item.strip()
@@ -140,27 +147,44 @@ def _controls(strips, depth, windows: dict, where: str) -> Controls:
         raise SweepInputError(f"{where}--{opt}: {exc.message}") from None
 
 
+def check_size(total: int, large_ok: bool, what: str = "the grid") -> None:
+    """Refuse an empty grid, one over MAX_POINTS, and one over LARGE_GRID unless confirmed."""
+    if total == 0:
+        raise SweepInputError(f"{what} has no points")
+    if total > MAX_POINTS:
+        raise SweepInputError(f"{what} has {total} points; at most {MAX_POINTS}")
+    if total > LARGE_GRID and not large_ok:
+        raise SweepInputError(
+            f"{what} has {total} points (about {total * 3 / 3600:.0f} core-hours of quick "
+            f"scans); more than {LARGE_GRID} need --large-grid to confirm"
+        )
+
+
 def grid_points(
-    strips: list[int], depths: list[float] | None, windows: dict[str, list[tuple[float, float]]]
+    strips: list[int],
+    depths: list[float] | None,
+    windows: dict[str, list[tuple[float, float]]],
+    large_ok: bool = False,
 ) -> list[Controls]:
     """The cartesian product, strips outermost, then depth, then the stages in motion order.
 
-    depths None: each strip count's documented depth. Every point is validated here.
+    depths None: each strip count's documented depth. Every point is validated here; see
+    :func:`check_size` for the sizes refused (``large_ok`` confirms a large grid).
     """
-    depth_list: list = [None] if not depths else depths
+    depth_list: list = [None] if depths is None else depths
     stage_lists = [[(s, w) for w in windows[s]] for s in STAGE_NAMES if windows.get(s)]
     total = len(strips) * len(depth_list) * math.prod(len(x) for x in stage_lists)
-    if total > MAX_POINTS:
-        raise SweepInputError(f"the grid has {total} points; at most {MAX_POINTS}")
+    check_size(total, large_ok)
     out = []
     for n, d, *ws in itertools.product(strips, depth_list, *stage_lists):
         out.append(_controls(n, d, dict(ws), ""))
     return out
 
 
-def read_table(path: Path) -> list[Controls]:
+def read_table(path: Path, large_ok: bool = False) -> list[Controls]:
     """Points from a CSV table: a header with ``strips`` and optionally ``depth`` and stage
-    names (each cell START,END, quoted); one point per row; empty cells take the default."""
+    names (each cell START,END, quoted); one point per row; empty cells take the default.
+    Sizes as :func:`check_size` (``large_ok`` confirms a large table)."""
     try:
         size = path.stat().st_size
     except OSError as exc:
@@ -183,8 +207,7 @@ def read_table(path: Path) -> list[Controls]:
             f"--table {path}: the header must name 'strips' and may name {', '.join(allowed[1:])}"
             f", each once; got {', '.join(head)}"
         )
-    if len(rows) - 1 > MAX_POINTS:
-        raise SweepInputError(f"--table {path}: {len(rows) - 1} rows; at most {MAX_POINTS}")
+    check_size(len(rows) - 1, large_ok, f"--table {path}")
     out: list[Controls] = []
     for r, row in enumerate(rows[1:], start=2):
         where = f"--table {path} row {r}: "
