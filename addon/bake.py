@@ -174,8 +174,12 @@ def bake_eversion(
     cache_dir: str = "//turnabout_cache/",
     progress=None,
     positions=None,
+    spacing: str | None = None,
 ):
     """Bake ``plan`` into ``ob`` (re-built in place) or into a new object linked to ``scene``.
+
+    ``spacing`` ("bend" or "even"), when given, is kept in the build record so that Load
+    Settings can put it back in the panel.
 
     ``positions`` (n_keys, V, 3) float32, when given, are the shapes already evaluated by
     the core for ``plan.times`` (the bake then only moves them into Blender).
@@ -255,16 +259,17 @@ def bake_eversion(
         mod.frame_scale = 1.0
         mod.interpolation = "LINEAR"
         progress(total, total)
-    ob[PROP_TAG] = json.dumps(
-        {
-            "controls": plan.controls.as_dict(),
-            "frames": plan.frames,
-            "frame_start": plan.frame_start,
-            "key_step": plan.key_step,
-            "mode": plan.mode,
-            "mesh": [plan.mesh.n_lon, plan.mesh.n_lat],
-        }
-    )
+    record = {
+        "controls": plan.controls.as_dict(),
+        "frames": plan.frames,
+        "frame_start": plan.frame_start,
+        "key_step": plan.key_step,
+        "mode": plan.mode,
+        "mesh": [plan.mesh.n_lon, plan.mesh.n_lat],
+    }
+    if spacing is not None:
+        record["spacing"] = spacing
+    ob[PROP_TAG] = json.dumps(record)
     return ob
 
 
@@ -305,6 +310,7 @@ def _run_bake(op, context, target):
                 memory_limit_mb=s.memory_limit_mb,
                 cache_dir=s.cache_dir,
                 progress=lambda d, t: wm.progress_update(d),
+                spacing=s.mesh_spacing.lower(),
             )
         finally:
             wm.progress_end()
@@ -382,6 +388,10 @@ def _panel_values(record) -> dict:
             "mesh_lon": n_lon,
             "mesh_lat": n_lat,
         }
+        if "spacing" in data:  # records written before it was kept leave the panel's
+            if data["spacing"] not in ("bend", "even"):
+                raise ValueError(f"spacing {data['spacing']!r}")
+            out["mesh_spacing"] = data["spacing"].upper()
     except (TypeError, ValueError, KeyError, AttributeError) as exc:  # ControlError too
         raise BakeError(
             f"object property {PROP_TAG!r}: not a Turnabout build record ({exc}); "

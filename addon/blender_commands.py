@@ -233,6 +233,7 @@ def run_scene(args) -> int:
                 size=args.size,
                 samples=args.samples,
                 progress=bar,
+                spacing=choice.spacing,
             )
         headless.point_cache_relative(ob, out)
         view_wiring.apply_view_request(ob.users_scene[0], ob, views, args.size)
@@ -381,6 +382,7 @@ def run_demo(args) -> int:
                 size=args.size,
                 samples=args.samples,
                 progress=lambda d, n: step("bake", d, n),
+                spacing=choice.spacing,
             )
             phase_s["bake"] = time.perf_counter() - t
             scene = bpy.context.scene

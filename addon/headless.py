@@ -294,8 +294,11 @@ def build_scene(
     size=(320, 240),
     samples: int = 16,
     progress=None,
+    spacing: str | None = None,
 ):
-    """A fresh file with the baked eversion, its material, camera and lights; returns the object."""
+    """A fresh file with the baked eversion, its material, camera and lights; returns the object.
+
+    ``spacing``: the mesh's spacing ("bend" or "even"), kept in the build record."""
     plan = plan_bake(controls, frames, frame_start, key_step, mesh, mode)
     refuse_if_too_big(plan, memory_limit_mb)
     empty_file()
@@ -308,6 +311,7 @@ def build_scene(
         memory_limit_mb=memory_limit_mb,
         cache_dir=cache_dir or tempfile.gettempdir(),
         progress=progress,
+        spacing=spacing,
     )
     look.apply_look(ob, look_options or look_settings())
     bake.set_scene_range(scene, plan)

@@ -25,7 +25,7 @@ from turnabout.eversion import STAGE_NAMES, Controls, build, default_depth, mesh
 pytestmark = pytest.mark.blender
 
 PANEL_NAMES = ("strips", "auto_depth", "depth", "frames", "frame_start", "key_step",
-               "bake_mode", "mesh_lon", "mesh_lat") + tuple(
+               "bake_mode", "mesh_lon", "mesh_lat", "mesh_spacing") + tuple(
     f"{stage}_{end}" for stage in STAGE_NAMES for end in ("start", "end")
 )  # fmt: skip
 
@@ -56,7 +56,8 @@ def test_loading_an_eversions_settings_then_rebuilding_gives_the_same_eversion()
     timing = Controls().timing
     a, b = timing["ripple"]
     built = {"strips": 10, "auto_depth": False, "depth": 0.17, "frames": 7, "frame_start": 4,
-             "key_step": 2, "mesh_lon": 80, "mesh_lat": 16, "ripple_start": a + 0.01}  # fmt: skip
+             "key_step": 2, "mesh_lon": 80, "mesh_lat": 16, "mesh_spacing": "EVEN",
+             "ripple_start": a + 0.01}  # fmt: skip
     ob = _bake_from_panel(**built)
     record, shapes = ob["turnabout"], _positions(ob)
     s = bpy.context.scene.turnabout
@@ -64,7 +65,7 @@ def test_loading_an_eversions_settings_then_rebuilding_gives_the_same_eversion()
 
     # the panel moves on: other strips, the documented depth, other frames and mesh
     for name, value in {"strips": 8, "auto_depth": True, "frames": 12, "frame_start": 1,
-                        "key_step": 1, "mesh_lon": 64, "mesh_lat": 20,
+                        "key_step": 1, "mesh_lon": 64, "mesh_lat": 20, "mesh_spacing": "BEND",
                         "ripple_start": a}.items():  # fmt: skip
         setattr(s, name, value)
     assert bpy.ops.turnabout.load_settings() == {"FINISHED"}
@@ -73,6 +74,19 @@ def test_loading_an_eversions_settings_then_rebuilding_gives_the_same_eversion()
     assert bpy.ops.turnabout.rebuild() == {"FINISHED"}
     assert json.loads(ob["turnabout"]) == json.loads(record)
     np.testing.assert_array_equal(_positions(ob), shapes)
+
+
+@pytest.mark.usefixtures("blank")
+def test_a_record_without_spacing_loads_and_leaves_the_panels_spacing():
+    ob = _bake_from_panel(mesh_spacing="EVEN")
+    record = json.loads(ob["turnabout"])
+    assert record["spacing"] == "even"
+    del record["spacing"]  # as baked before the spacing was recorded
+    ob["turnabout"] = json.dumps(record)
+    s = bpy.context.scene.turnabout
+    s.mesh_spacing = "BEND"
+    assert bpy.ops.turnabout.load_settings() == {"FINISHED"}
+    assert s.mesh_spacing == "BEND" and s.mesh_lon == 64
 
 
 @pytest.mark.usefixtures("blank")
