@@ -27,7 +27,9 @@ TINY = np.finfo(np.float64).tiny
 class FaceFrame:
     """Per-face geometry of one frame, stacked by coordinate; M faces, float64.
 
-    corner0 : (3, M), coordinate c of each face's corner 0 in row c
+    corners : (3, 3, M), corners[c, 0] = coordinate c of each face's corner 0; the rows of
+    corners 1 and 2 are scratch (overwritten): once corner 0 is used, the whole buffer is
+    free for the caller's own intermediates (the per-frame working set stays small)
     edges : (3, 3, M), edges[c, k] = coordinate c of edge k, from corner k to corner k+1
     normal_padded : (3, M + 1), (p1 - p0) x (p2 - p0) (of length dbl, twice the face area)
     then a column of 0.0 (the padding :class:`CornerSums` gathers); ``normal`` is (3, M)
@@ -36,7 +38,7 @@ class FaceFrame:
     dots : (3, M), at corner k the dot product of its two edges (e_k and -e_{k+2})
     """
 
-    corner0: np.ndarray
+    corners: np.ndarray
     edges: np.ndarray
     normal_padded: np.ndarray
     dbl: np.ndarray
@@ -60,24 +62,25 @@ def face_frame(X: np.ndarray, Y: np.ndarray, Z: np.ndarray, topo: MeshTopology) 
     E = np.empty((3, 3, m))
     np.subtract(C[:, 1:], C[:, :2], out=E[:, :2])  # e0 = p1 - p0, e1 = p2 - p1
     np.subtract(C[:, 0], C[:, 2], out=E[:, 2])  # e2 = p0 - p2
-    corner0 = C[:, 0].copy()
+    # from here on corners 1 and 2 are scratch
+    t, T = C[0, 1], C[:, 2]  # (M,), (3, M)
     # (p1 - p0) x (p2 - p0) = e0 x (-e2) = e2 x e0
     Np = np.empty((3, m + 1))
     Np[:, m] = 0.0
     N = Np[:, :m]
-    t = C[0, 1]  # scratch: the corners are no longer needed
     for c in range(3):
         a, b = (c + 1) % 3, (c + 2) % 3
         np.multiply(E[a, 2], E[b, 0], out=N[c])
         np.multiply(E[b, 2], E[a, 0], out=t)
         N[c] -= t
-    sq = np.multiply(N, N, out=C[1])
-    dbl = np.add(sq[0], sq[1])
-    dbl += sq[2]
+    np.multiply(N, N, out=T)
+    dbl = np.add(T[0], T[1])
+    dbl += T[2]
     np.sqrt(dbl, out=dbl)
-    EE = np.multiply(E, E, out=C)
-    L = np.add(EE[0], EE[1])
-    L += EE[2]
+    L = np.multiply(E[0], E[0])  # squared edge lengths, x + y + z
+    for c in (1, 2):
+        np.multiply(E[c], E[c], out=T)
+        L += T
     # law of cosines: at corner k the edges are e_k and -e_{k+2}, the opposite edge e_{k+1}:
     # d_k = (l_k + l_{k+2} - l_{k+1}) / 2
     D = np.empty((3, m))
@@ -88,7 +91,7 @@ def face_frame(X: np.ndarray, Y: np.ndarray, Z: np.ndarray, topo: MeshTopology) 
     D *= 0.5
     inv = np.maximum(dbl, TINY)
     np.divide(1.0, inv, out=inv)
-    return FaceFrame(corner0, E, Np, dbl, inv, L, D)
+    return FaceFrame(C, E, Np, dbl, inv, L, D)
 
 
 def corner_pair_sums(T: np.ndarray, out: np.ndarray) -> np.ndarray:
@@ -108,7 +111,12 @@ def padded_corner_buffer(m: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 def curvature_of_frame(
-    ff: FaceFrame, topo: MeshTopology, sums: CornerSums | None = None
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums | None = None,
+    work: np.ndarray | None = None,
+    corner: np.ndarray | None = None,
+    rows: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """(|H| (V,), K (V,)) float64: absolute mean and Gaussian curvature per vertex.
 
@@ -116,44 +124,45 @@ def curvature_of_frame(
     meaningful (the angle defect there measures boundary turning). A collapsed face (a
     pinch) has unbounded cotangent weights: its vertices get inf, which the checks read as
     a failure, so the overflow there is expected and not reported as a numpy warning.
-    sums : the topology's CornerSums, if already built.
+    sums : the topology's CornerSums, if already built. Buffers to reuse, overwritten:
+    work (2+, 3, M), corner (3M + 1,) from :func:`padded_corner_buffer`, rows (W, V).
     """
     sums = CornerSums(topo) if sums is None else sums
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        return _curvature_of_frame(ff, topo, sums)
+        return _curvature_of_frame(ff, topo, sums, work, corner, rows)
 
 
-def _curvature_of_frame(
-    ff: FaceFrame, topo: MeshTopology, sums: CornerSums
-) -> tuple[np.ndarray, np.ndarray]:
+def _curvature_of_frame(ff, topo, sums, work, corner, rows) -> tuple[np.ndarray, np.ndarray]:
     m = ff.dbl.shape[0]
     n = topo.n_vertices
-    cot = np.multiply(ff.dots, ff.inv_dbl)  # c_k: cotangent of the angle at corner k
-    weight = (cot[2], cot[0], cot[1])
-    # edge k (corner k -> k+1) has weight cot of the opposite corner: w0 = c2, w1 = c0,
-    # w2 = c1; with g_k = w_k e_k, corner k receives g_{k+2} - g_k
-    g = np.empty((3, 3, m))
+    # edge k (corner k -> k+1) has weight w_k = cot of the opposite corner k+2, where
+    # cot_k = d_k / dbl: w0 = c2, w1 = c0, w2 = c1; with g_k = w_k e_k, corner k receives
+    # g_{k+2} - g_k
+    w = np.empty((3, m)) if work is None else work[0]
     for k in range(3):
-        np.multiply(ff.edges[:, k], weight[k], out=g[:, k])
-    corner, slots = padded_corner_buffer(m)
-    rows = sums.rows_buffer()
+        np.multiply(ff.dots[(k + 2) % 3], ff.inv_dbl, out=w[k])
+    g = np.empty((3, m)) if work is None else work[1]  # one coordinate at a time
+    if corner is None:
+        corner, slots = padded_corner_buffer(m)
+    else:
+        slots = corner[: 3 * m].reshape(3, m)
+    rows = sums.rows_buffer() if rows is None else rows
     lap = np.empty((3, n))
     for c in range(3):
-        np.subtract(g[c, 2], g[c, 0], out=slots[0])
-        np.subtract(g[c, :2], g[c, 1:], out=slots[1:])
+        np.multiply(ff.edges[c], w, out=g)
+        np.subtract(g[2], g[0], out=slots[0])
+        np.subtract(g[:2], g[1:], out=slots[1:])
         sums.sum_corners(corner, out=lap[c], rows=rows)
     # mixed Voronoi area: the Voronoi part for non-obtuse faces (corner k: edges k and k+2,
     # weighted by the cotangents opposite them), area/2 or area/4 in obtuse faces
-    t = g[0]
-    for k in range(3):
-        np.multiply(ff.sq_len[k], weight[k], out=t[k])  # l_k w_k
+    t = np.multiply(ff.sq_len, w, out=g)  # l_k w_k
     corner_pair_sums(t, slots)
     slots *= 0.125
     ob = np.less(ff.dots, 0.0)
     obtuse_face = np.logical_or(ob[0], ob[1])
     obtuse_face |= ob[2]
     if obtuse_face.any():
-        quarter = np.multiply(0.125, ff.dbl)  # area / 4
+        quarter = np.multiply(0.125, ff.dbl, out=g[0])  # area / 4
         np.copyto(slots, quarter, where=obtuse_face)
         quarter *= 2.0  # area / 2 at the obtuse corner itself
         np.copyto(slots, quarter, where=ob)

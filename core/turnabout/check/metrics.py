@@ -118,7 +118,8 @@ def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:
         crease_neighbours=nb,
         all_crease_neighbours=bool(np.all(nb >= 0)),
         crease_neighbour_columns=(
-            np.ascontiguousarray(nb[:, 0], np.intp), np.ascontiguousarray(nb[:, 1], np.intp)
+            np.ascontiguousarray(nb[:, 0], np.intp),
+            np.ascontiguousarray(nb[:, 1], np.intp),
         ),
     )
 
@@ -141,13 +142,21 @@ class FrameMetrics:
     area: float
 
 
-def _local_length(ff: FaceFrame, topo: MeshTopology, sums: CornerSums,
-                  rows: np.ndarray | None = None) -> np.ndarray:  # fmt: skip
+def _local_length(
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums,
+    corner: np.ndarray | None = None,
+    rows: np.ndarray | None = None,
+    root: np.ndarray | None = None,
+) -> np.ndarray:
     """(V,) mean length of the edges at each vertex: over the corners' two edges (each edge
-    counted from both faces)."""
-    corner, slots = padded_corner_buffer(topo.n_faces)
-    root = np.sqrt(ff.sq_len)
-    corner_pair_sums(root, slots)
+    counted from both faces). Buffers to reuse: corner (3M + 1,), rows (W, V), root (3, M)."""
+    m = topo.n_faces
+    if corner is None:
+        corner = padded_corner_buffer(m)[0]
+    root = np.sqrt(ff.sq_len, out=root)
+    corner_pair_sums(root, corner[: 3 * m].reshape(3, m))
     length = sums.sum_corners(corner, rows=rows)
     length *= topo.inverse_twice_degree
     return length
@@ -172,36 +181,58 @@ def frame_metrics(
     orientable : False skips the volume and degree (they need an orientation).
     sums : the topology's :class:`CornerSums` (built once per animation; built for this
     call when None).
+
+    The (M,)-sized intermediates live in few buffers, each reused once its content is
+    spent (the comments say which): the memory one frame touches stays a fraction of the
+    cache, which is most of the speed.
     """
     sums = CornerSums(topo) if sums is None else sums
     n, m = topo.n_vertices, topo.n_faces
     used = topo.used_vertices
     all_used = topo.all_vertices_used
-    rows = sums.rows_buffer()
     X0, Y0, Z0 = _components(P)
+    if previous is not None and previous_length is None:
+        # exactly as that frame's own metrics computed it
+        Q = np.asarray(previous, np.float64)
+        previous_length = _local_length(face_frame(*_centred(*_components(Q), topo), topo),
+                                        topo, sums)  # fmt: skip
     X, Y, Z = _centred(X0, Y0, Z0, topo)
     ff = face_frame(X, Y, Z, topo)
     dbl = ff.dbl
     N = ff.normal
-    un = np.multiply(N, ff.inv_dbl)  # (3, M) unit normals
+    area = float(0.5 * dbl.sum())
+    spare = ff.corners  # (3, 3, M): free once the volume has used corner 0
+    if orientable:
+        # divergence theorem: sum over faces of p0 . n / 6 (a pairwise sum: the same on
+        # every machine, unlike a BLAS dot product)
+        p0n = np.multiply(spare[:, 0], N, out=spare[:, 1])
+        vol = np.add(p0n[0], p0n[1])
+        vol += p0n[2]
+        volume = float(vol.sum()) / 6.0
+        del vol, p0n
+    else:
+        volume = float("nan")
 
     area_ratio = np.multiply(0.5, dbl)
     area_ratio *= ref.inverse_area
     quality_ratio = face_quality(ff)
     quality_ratio *= ref.inverse_quality
+    un = np.multiply(N, ff.inv_dbl)  # (3, M) unit normals
 
     # crease: angle between the unit normals of each edge's two faces; on a non-orientable
     # mesh an edge traversed the same way by both faces compares n with -n.
     fa, fb = topo.edge_face_columns
     ne = fa.shape[0]
-    ga = np.empty((3, ne))
-    gb = np.empty((3, ne))
+    ta, tb = np.empty(ne), np.empty(ne)
+    cosang = np.empty(ne)
     for c in range(3):
-        un[c].take(fa, out=ga[c], mode="clip")
-        un[c].take(fb, out=gb[c], mode="clip")
-    ga *= gb
-    cosang = np.add(ga[0], ga[1])
-    cosang += ga[2]
+        un[c].take(fa, out=ta, mode="clip")
+        un[c].take(fb, out=tb, mode="clip")
+        if c == 0:
+            np.multiply(ta, tb, out=cosang)
+        else:
+            ta *= tb
+            cosang += ta
     if topo.has_flipped_edges:
         cosang *= topo.edge_flip_sign
     np.minimum(cosang, 1.0, out=cosang)
@@ -214,8 +245,8 @@ def frame_metrics(
     # (chosen on the reference frame), floored so that flat surroundings do not divide by 0
     if ref.all_crease_neighbours:
         nb0, nb1 = ref.crease_neighbour_columns
-        side_mean = crease.take(nb0, out=ga[0], mode="clip")
-        side_mean += crease.take(nb1, out=ga[1], mode="clip")
+        side_mean = crease.take(nb0, out=ta, mode="clip")
+        side_mean += crease.take(nb1, out=tb, mode="clip")
         side_mean *= 0.5
     else:
         nb = ref.crease_neighbours
@@ -224,44 +255,12 @@ def frame_metrics(
         side_mean = vals.sum(axis=1) / np.maximum(ok.sum(axis=1), 1)
     np.maximum(side_mean, concentration_floor_deg, out=side_mean)
     concentration = np.divide(crease, side_mean)
-    del ga, gb, side_mean
-
-    # vertex normals (area weighted, fan-oriented) and fold agreement
-    vn = np.empty((3, n))
-    flat_fans = not topo.has_flipped_edges
-    if flat_fans:
-        for c in range(3):
-            sums.sum_faces(ff.normal_padded[c], out=vn[c], rows=rows)
-    else:
-        sgn = topo.corner_fan_signs_slot_major.reshape(3, m)
-        corner, slots = padded_corner_buffer(m)
-        for c in range(3):
-            np.multiply(sgn, N[c], out=slots)
-            sums.sum_corners(corner, out=vn[c], rows=rows)
-    vinv = np.multiply(vn[0], vn[0])
-    vinv += vn[1] * vn[1]
-    vinv += vn[2] * vn[2]
-    np.sqrt(vinv, out=vinv)
-    np.maximum(vinv, TINY, out=vinv)
-    np.divide(1.0, vinv, out=vinv)
-    vn *= vinv
-    cols = topo.corner_columns
-    cn = np.empty((3, 3, m))  # cn[c, k]: coordinate c of the vertex normal at corner k
-    for c in range(3):
-        for k in range(3):
-            vn[c].take(cols[k], out=cn[c, k], mode="clip")
-    corner_dot = np.multiply(cn[0], un[0])  # (3, M), slot-major
-    t3 = np.empty((3, m))
-    for c in (1, 2):
-        np.multiply(cn[c], un[c], out=t3)
-        corner_dot += t3
-    if not flat_fans:
-        corner_dot *= topo.corner_fan_signs_slot_major.reshape(3, m)
-    fold = sums.min_corners(corner_dot.reshape(-1), rows=rows)
-    del un, corner_dot
+    del ta, tb, side_mean
 
     # tight bend: 1 / (largest absolute principal curvature), relative to the frame's size
-    h, k = curvature_of_frame(ff, topo, sums)
+    corner = padded_corner_buffer(m)[0]  # corner values for every per-vertex sum below
+    rows = sums.rows_buffer()
+    h, k = curvature_of_frame(ff, topo, sums, work=spare, corner=corner, rows=rows)
     with np.errstate(invalid="ignore", over="ignore"):  # inf at collapsed faces (a pinch)
         disc = h * h
         disc -= k
@@ -280,7 +279,7 @@ def frame_metrics(
     if not all_used:
         bend[~used] = np.inf
 
-    local_len = _local_length(ff, topo, sums, rows)
+    local_len = _local_length(ff, topo, sums, corner, rows, root=spare[0])
     if previous is None:
         step = np.zeros(n)
     else:
@@ -288,9 +287,6 @@ def frame_metrics(
         dx = X0 - Q[:, 0]
         dy = Y0 - Q[:, 1]
         dz = Z0 - Q[:, 2]
-        if previous_length is None:  # exactly as that frame's own metrics computed it
-            pff = face_frame(*_centred(*_components(Q), topo), topo)
-            previous_length = _local_length(pff, topo, sums, rows)
         dx *= dx
         dy *= dy
         dz *= dz
@@ -304,32 +300,60 @@ def frame_metrics(
         if not all_used:
             step[~used] = 0.0
 
+    # vertex normals (area weighted, fan-oriented) and fold agreement; from here on the
+    # edges, squared lengths and corner dot products of ff are spent: their buffers hold
+    # the corner normals (edges), corner agreement (dots) and products (sq_len)
+    vn = np.empty((3, n))
+    flat_fans = not topo.has_flipped_edges
+    if flat_fans:
+        for c in range(3):
+            sums.sum_faces(ff.normal_padded[c], out=vn[c], rows=rows)
+    else:
+        sgn = topo.corner_fan_signs_slot_major.reshape(3, m)
+        for c in range(3):
+            np.multiply(sgn, N[c], out=corner[: 3 * m].reshape(3, m))
+            sums.sum_corners(corner, out=vn[c], rows=rows)
+    vinv = np.multiply(vn[0], vn[0])
+    vinv += vn[1] * vn[1]
+    vinv += vn[2] * vn[2]
+    np.sqrt(vinv, out=vinv)
+    np.maximum(vinv, TINY, out=vinv)
+    np.divide(1.0, vinv, out=vinv)
+    vn *= vinv
+    cols = topo.corner_columns
+    cn = ff.edges  # cn[c, k]: coordinate c of the vertex normal at corner k
+    for c in range(3):
+        for k in range(3):
+            vn[c].take(cols[k], out=cn[c, k], mode="clip")
+    corner_dot = np.multiply(cn[0], un[0], out=ff.dots)  # (3, M), slot-major
+    t3 = ff.sq_len
+    for c in (1, 2):
+        np.multiply(cn[c], un[c], out=t3)
+        corner_dot += t3
+    if not flat_fans:
+        corner_dot *= topo.corner_fan_signs_slot_major.reshape(3, m)
+    fold = sums.min_corners(corner_dot.reshape(-1), rows=rows)
+
     if orientable:
-        # divergence theorem: sum over faces of p0 . n / 6 (a pairwise sum: the same on
-        # every machine, unlike a BLAS dot product)
-        np.multiply(ff.corner0, N, out=t3)
-        vol = np.add(t3[0], t3[1])
-        vol += t3[2]
-        volume = float(vol.sum()) / 6.0
         # degree: signed solid angles of the spherical triangles spanned by vertex normals
         # (Van Oosterom & Strackee, "The solid angle of a plane triangle", 1983); a, b, q
         # are the vertex normals at corners 0, 1, 2
         a, b, q = cn[:, 0], cn[:, 1], cn[:, 2]
-        cross = t3  # b x q
+        cross, tmp = t3, ff.inv_dbl  # b x q; inv_dbl is spent
         for c in range(3):
             i, j = (c + 1) % 3, (c + 2) % 3
             np.multiply(b[i], q[j], out=cross[c])
-            np.multiply(b[j], q[i], out=vol)
-            cross[c] -= vol
+            np.multiply(b[j], q[i], out=tmp)
+            cross[c] -= tmp
         cross *= a
-        triple = np.add(cross[0], cross[1])
+        triple = np.add(cross[0], cross[1], out=dbl)  # dbl is spent
         triple += cross[2]
-        pairs = np.empty((3, 3, m))  # pairs[c, i]: a b, b q, q a, coordinate c
+        pairs = spare  # pairs[c, i]: a b, b q, q a, coordinate c
         np.multiply(cn[:, :2], cn[:, 1:], out=pairs[:, :2])
         np.multiply(q, a, out=pairs[:, 2])
         dots = np.add(pairs[0], pairs[1], out=t3)  # (a.b, b.q, q.a)
         dots += pairs[2]
-        den = np.add(1.0, dots[0], out=vol)
+        den = np.add(1.0, dots[0], out=tmp)
         den += dots[1]
         den += dots[2]
         solid = np.arctan2(triple, den, out=triple)
@@ -341,7 +365,6 @@ def frame_metrics(
             degree = float(nearest)
         degree += 0.0  # -0.0 -> 0.0
     else:
-        volume = float("nan")
         degree = float("nan")
     return FrameMetrics(
         area_ratio=area_ratio,
@@ -355,7 +378,7 @@ def frame_metrics(
         signed_volume=volume,
         degree=degree,
         size=size,
-        area=float(0.5 * dbl.sum()),
+        area=area,
     )
 
 

@@ -410,4 +410,3 @@ class AnimationReport:
         plt.close(fig)
         atomic_write_bytes(Path(path), buf.getvalue())
         return Path(path)
-
