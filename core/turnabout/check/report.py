@@ -410,3 +410,4 @@ class AnimationReport:
         plt.close(fig)
         atomic_write_bytes(Path(path), buf.getvalue())
         return Path(path)
+
