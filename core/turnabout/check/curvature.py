@@ -132,7 +132,14 @@ def curvature_of_frame(
         return _curvature_of_frame(ff, topo, sums, work, corner, rows)
 
 
-def _curvature_of_frame(ff, topo, sums, work, corner, rows) -> tuple[np.ndarray, np.ndarray]:
+def _curvature_of_frame(
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums,
+    work: np.ndarray | None,
+    corner: np.ndarray | None,
+    rows: np.ndarray | None,
+) -> tuple[np.ndarray, np.ndarray]:
     m = ff.dbl.shape[0]
     n = topo.n_vertices
     # edge k (corner k -> k+1) has weight w_k = cot of the opposite corner k+2, where
