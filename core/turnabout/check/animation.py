@@ -16,6 +16,7 @@ from .roundness import eversion_check
 from .singular import failing_clusters, vertex_heat
 from .thresholds import METRICS, Thresholds, severity, warn_severity
 from .topology import MeshTopology, TopologyError, as_triangles, topology_report
+from .vertex_sums import CornerSums
 
 
 class CheckInputError(ValueError):
@@ -211,6 +212,7 @@ class _FrameJob:
     intersections: bool
     use_mathutils: bool
     times: np.ndarray | None
+    sums: CornerSums  # the topology's corner tables, built once and shared (read-only)
 
 
 def _judge_range(job: _FrameJob, start: int, stop: int, progress: ProgressFn | None = None):
@@ -222,7 +224,7 @@ def _judge_range(job: _FrameJob, start: int, stop: int, progress: ProgressFn | N
     for k in range(start, stop):
         Pk = np.asarray(job.P[k], np.float64)
         fm = frame_metrics(Pk, job.topo, job.ref, previous=prev, previous_length=prev_len,
-                           orientable=job.orientable)  # fmt: skip
+                           orientable=job.orientable, sums=job.sums)  # fmt: skip
         inter = None
         if job.intersections:
             inter = self_intersections(Pk, job.topo, use_mathutils=job.use_mathutils)
@@ -413,7 +415,7 @@ def check_animation(
     closed_manifold = treport.is_manifold
     ref = reference_frame(P[0], topo)
     job = _FrameJob(P, topo, ref, th, chi, closed_manifold, orientable, intersections,
-                    use_mathutils, times)  # fmt: skip
+                    use_mathutils, times, CornerSums(topo))  # fmt: skip
     frames, inter_results = _run_frames(job, workers, progress, client, retries)
     counts = None
     if level_counts is not None and closed_manifold and orientable:

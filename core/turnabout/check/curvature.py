@@ -5,8 +5,10 @@ both divided by the mixed Voronoi area of each vertex (Meyer, Desbrun, Schröder
 "Discrete Differential-Geometry Operators for Triangulated 2-Manifolds", 2003). The
 absolute principal curvatures follow as |H| +- sqrt(max(H^2 - K, 0)).
 
-The per-face quantities are kept as separate x / y / z arrays (one frame at a time), which
-is what makes the per-frame checks fast: every step is a flat, contiguous numpy operation.
+The per-face quantities are kept stacked by coordinate, (3, M) and (3, 3, M) arrays of one
+frame, which is what makes the per-frame checks fast: every step is a flat, contiguous numpy
+operation, and the per-vertex sums are gathers through the corner tables of
+:class:`~turnabout.check.vertex_sums.CornerSums`.
 """
 
 from __future__ import annotations
@@ -16,129 +18,176 @@ from dataclasses import dataclass
 import numpy as np
 
 from .topology import MeshTopology
+from .vertex_sums import CornerSums
 
 TINY = np.finfo(np.float64).tiny
 
 
 @dataclass
 class FaceFrame:
-    """Per-face geometry of one frame, component-wise; every array is (M,) float64.
+    """Per-face geometry of one frame, stacked by coordinate; M faces, float64.
 
-    e{k}{x,y,z} : edge k, from corner k to corner k+1
-    n{x,y,z} : (p1 - p0) x (p2 - p0), of length dbl (twice the face area)
-    l{k} : squared length of edge k; d{k} : at corner k, the dot product of its two edges
-    x0, y0, z0 : corner 0
+    corners : (3, 3, M), corners[c, 0] = coordinate c of each face's corner 0; the rows of
+    corners 1 and 2 are scratch (overwritten): once corner 0 is used, the whole buffer is
+    free for the caller's own intermediates (the per-frame working set stays small)
+    edges : (3, 3, M), edges[c, k] = coordinate c of edge k, from corner k to corner k+1
+    normal_padded : (3, M + 1), (p1 - p0) x (p2 - p0) (of length dbl, twice the face area)
+    then a column of 0.0 (the padding :class:`CornerSums` gathers); ``normal`` is (3, M)
+    dbl : (M,); inv_dbl : (M,) 1 / max(dbl, TINY)
+    sq_len : (3, M), squared length of edge k
+    dots : (3, M), at corner k the dot product of its two edges (e_k and -e_{k+2})
     """
 
-    e0x: np.ndarray
-    e0y: np.ndarray
-    e0z: np.ndarray
-    e1x: np.ndarray
-    e1y: np.ndarray
-    e1z: np.ndarray
-    e2x: np.ndarray
-    e2y: np.ndarray
-    e2z: np.ndarray
-    nx: np.ndarray
-    ny: np.ndarray
-    nz: np.ndarray
+    corners: np.ndarray
+    edges: np.ndarray
+    normal_padded: np.ndarray
     dbl: np.ndarray
-    l0: np.ndarray
-    l1: np.ndarray
-    l2: np.ndarray
-    d0: np.ndarray
-    d1: np.ndarray
-    d2: np.ndarray
-    x0: np.ndarray
-    y0: np.ndarray
-    z0: np.ndarray
+    inv_dbl: np.ndarray
+    sq_len: np.ndarray
+    dots: np.ndarray
+
+    @property
+    def normal(self) -> np.ndarray:
+        return self.normal_padded[:, :-1]
 
 
 def face_frame(X: np.ndarray, Y: np.ndarray, Z: np.ndarray, topo: MeshTopology) -> FaceFrame:
     """FaceFrame from vertex coordinates X, Y, Z (each (V,) float64)."""
-    f0, f1, f2 = topo.corner_columns
-    x0, x1, x2 = X.take(f0), X.take(f1), X.take(f2)
-    y0, y1, y2 = Y.take(f0), Y.take(f1), Y.take(f2)
-    z0, z1, z2 = Z.take(f0), Z.take(f1), Z.take(f2)
-    e0x, e0y, e0z = x1 - x0, y1 - y0, z1 - z0
-    e1x, e1y, e1z = x2 - x1, y2 - y1, z2 - z1
-    e2x, e2y, e2z = x0 - x2, y0 - y2, z0 - z2
+    m = topo.n_faces
+    cols = topo.corner_columns  # validated indices: "clip" never clips, and is faster
+    C = np.empty((3, 3, m))
+    for c, coord in enumerate((X, Y, Z)):
+        for k in range(3):
+            coord.take(cols[k], out=C[c, k], mode="clip")
+    E = np.empty((3, 3, m))
+    np.subtract(C[:, 1:], C[:, :2], out=E[:, :2])  # e0 = p1 - p0, e1 = p2 - p1
+    np.subtract(C[:, 0], C[:, 2], out=E[:, 2])  # e2 = p0 - p2
+    # from here on corners 1 and 2 are scratch
+    t, T = C[0, 1], C[:, 2]  # (M,), (3, M)
     # (p1 - p0) x (p2 - p0) = e0 x (-e2) = e2 x e0
-    nx = e2y * e0z - e2z * e0y
-    ny = e2z * e0x - e2x * e0z
-    nz = e2x * e0y - e2y * e0x
-    dbl = np.sqrt(nx * nx + ny * ny + nz * nz)
-    l0 = e0x * e0x + e0y * e0y + e0z * e0z
-    l1 = e1x * e1x + e1y * e1y + e1z * e1z
-    l2 = e2x * e2x + e2y * e2y + e2z * e2z
-    # law of cosines: at corner k the edges are e_k and -e_{k+2}, the opposite edge e_{k+1}
-    d0 = 0.5 * (l0 + l2 - l1)
-    d1 = 0.5 * (l1 + l0 - l2)
-    d2 = 0.5 * (l2 + l1 - l0)
-    return FaceFrame(
-        e0x, e0y, e0z, e1x, e1y, e1z, e2x, e2y, e2z, nx, ny, nz, dbl, l0, l1, l2, d0, d1, d2,
-        x0, y0, z0,
-    )  # fmt: skip
+    Np = np.empty((3, m + 1))
+    Np[:, m] = 0.0
+    N = Np[:, :m]
+    for c in range(3):
+        a, b = (c + 1) % 3, (c + 2) % 3
+        np.multiply(E[a, 2], E[b, 0], out=N[c])
+        np.multiply(E[b, 2], E[a, 0], out=t)
+        N[c] -= t
+    np.multiply(N, N, out=T)
+    dbl = np.add(T[0], T[1])
+    dbl += T[2]
+    np.sqrt(dbl, out=dbl)
+    L = np.multiply(E[0], E[0])  # squared edge lengths, x + y + z
+    for c in (1, 2):
+        np.multiply(E[c], E[c], out=T)
+        L += T
+    # law of cosines: at corner k the edges are e_k and -e_{k+2}, the opposite edge e_{k+1}:
+    # d_k = (l_k + l_{k+2} - l_{k+1}) / 2
+    D = np.empty((3, m))
+    np.add(L[0], L[2], out=D[0])
+    np.add(L[1:], L[:2], out=D[1:])
+    np.subtract(D[:2], L[1:], out=D[:2])
+    D[2] -= L[0]
+    D *= 0.5
+    inv = np.maximum(dbl, TINY)
+    np.divide(1.0, inv, out=inv)
+    return FaceFrame(C, E, Np, dbl, inv, L, D)
 
 
-def curvature_of_frame(ff: FaceFrame, topo: MeshTopology) -> tuple[np.ndarray, np.ndarray]:
+def corner_pair_sums(T: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """out (3, M) = per corner k the sum T_k + T_{k+2} of two rows of T (3, M): the rows of
+    the two edges at corner k (edges k and k+2)."""
+    np.add(T[0], T[2], out=out[0])
+    np.add(T[1:], T[:2], out=out[1:])
+    return out
+
+
+def padded_corner_buffer(m: int) -> tuple[np.ndarray, np.ndarray]:
+    """(3M + 1,) float64 ending in the 0.0 padding of :class:`CornerSums`, and its (3, M)
+    view of the slot-major corner values (row k: corner k of every face)."""
+    buf = np.empty(3 * m + 1)
+    buf[3 * m] = 0.0
+    return buf, buf[: 3 * m].reshape(3, m)
+
+
+def curvature_of_frame(
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums | None = None,
+    work: np.ndarray | None = None,
+    corner: np.ndarray | None = None,
+    rows: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
     """(|H| (V,), K (V,)) float64: absolute mean and Gaussian curvature per vertex.
 
     Vertices with no faces get 0. On an open mesh the values at boundary vertices are not
     meaningful (the angle defect there measures boundary turning). A collapsed face (a
     pinch) has unbounded cotangent weights: its vertices get inf, which the checks read as
     a failure, so the overflow there is expected and not reported as a numpy warning.
+    sums : the topology's CornerSums, if already built. Buffers to reuse, overwritten:
+    work (2+, 3, M), corner (3M + 1,) from :func:`padded_corner_buffer`, rows (W, V).
     """
+    sums = CornerSums(topo) if sums is None else sums
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        return _curvature_of_frame(ff, topo)
+        return _curvature_of_frame(ff, topo, sums, work, corner, rows)
 
 
-def _curvature_of_frame(ff: FaceFrame, topo: MeshTopology) -> tuple[np.ndarray, np.ndarray]:
-    n = topo.n_vertices
+def _curvature_of_frame(
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums,
+    work: np.ndarray | None,
+    corner: np.ndarray | None,
+    rows: np.ndarray | None,
+) -> tuple[np.ndarray, np.ndarray]:
     m = ff.dbl.shape[0]
-    idx = topo.corner_index_slot_major
-    inv = 1.0 / np.maximum(ff.dbl, TINY)
-    c0, c1, c2 = ff.d0 * inv, ff.d1 * inv, ff.d2 * inv
-    # edge k (corner k -> k+1) has weight cot of the opposite corner: w0 = c2, w1 = c0,
-    # w2 = c1; with g_k = w_k e_k, corner k receives g_{k+2} - g_k
-    buf = np.empty(3 * m)
-    lap = []
-    for e0, e1, e2 in ((ff.e0x, ff.e1x, ff.e2x), (ff.e0y, ff.e1y, ff.e2y),
-                       (ff.e0z, ff.e1z, ff.e2z)):  # fmt: skip
-        g0, g1, g2 = c2 * e0, c0 * e1, c1 * e2
-        np.subtract(g2, g0, out=buf[:m])
-        np.subtract(g0, g1, out=buf[m : 2 * m])
-        np.subtract(g1, g2, out=buf[2 * m :])
-        lap.append(np.bincount(idx, buf, minlength=n))
-    lx, ly, lz = lap
+    n = topo.n_vertices
+    # edge k (corner k -> k+1) has weight w_k = cot of the opposite corner k+2, where
+    # cot_k = d_k / dbl: w0 = c2, w1 = c0, w2 = c1; with g_k = w_k e_k, corner k receives
+    # g_{k+2} - g_k
+    w = np.empty((3, m)) if work is None else work[0]
+    for k in range(3):
+        np.multiply(ff.dots[(k + 2) % 3], ff.inv_dbl, out=w[k])
+    g = np.empty((3, m)) if work is None else work[1]  # one coordinate at a time
+    if corner is None:
+        corner, slots = padded_corner_buffer(m)
+    else:
+        slots = corner[: 3 * m].reshape(3, m)
+    rows = sums.rows_buffer() if rows is None else rows
+    lap = np.empty((3, n))
+    for c in range(3):
+        np.multiply(ff.edges[c], w, out=g)
+        np.subtract(g[2], g[0], out=slots[0])
+        np.subtract(g[:2], g[1:], out=slots[1:])
+        sums.sum_corners(corner, out=lap[c], rows=rows)
     # mixed Voronoi area: the Voronoi part for non-obtuse faces (corner k: edges k and k+2,
     # weighted by the cotangents opposite them), area/2 or area/4 in obtuse faces
-    np.multiply(ff.l0, c2, out=buf[:m])
-    buf[:m] += ff.l2 * c1
-    np.multiply(ff.l1, c0, out=buf[m : 2 * m])
-    buf[m : 2 * m] += ff.l0 * c2
-    np.multiply(ff.l2, c1, out=buf[2 * m :])
-    buf[2 * m :] += ff.l1 * c0
-    buf *= 0.125
-    ob = np.concatenate([ff.d0 < 0, ff.d1 < 0, ff.d2 < 0])
-    obtuse_face = ob[:m] | ob[m : 2 * m] | ob[2 * m :]
+    t = np.multiply(ff.sq_len, w, out=g)  # l_k w_k
+    corner_pair_sums(t, slots)
+    slots *= 0.125
+    ob = np.less(ff.dots, 0.0)
+    obtuse_face = np.logical_or(ob[0], ob[1])
+    obtuse_face |= ob[2]
     if obtuse_face.any():
-        f_ob = np.flatnonzero(obtuse_face)
-        quarter = 0.125 * ff.dbl[f_ob]  # area / 4
-        for k in range(3):
-            slot = k * m + f_ob
-            buf[slot] = np.where(ob[slot], 2.0 * quarter, quarter)
-    amix = np.bincount(idx, buf, minlength=n)
-    np.arctan2(ff.dbl, ff.d0, out=buf[:m])
-    np.arctan2(ff.dbl, ff.d1, out=buf[m : 2 * m])
-    np.arctan2(ff.dbl, ff.d2, out=buf[2 * m :])
-    angle_sum = np.bincount(idx, buf, minlength=n)
-    a_safe = np.maximum(amix, TINY)
-    mean_abs = np.sqrt(lx * lx + ly * ly + lz * lz) / (4.0 * a_safe)
-    gauss = (2 * np.pi - angle_sum) / a_safe
-    unused = ~topo.used_vertices
-    mean_abs[unused] = 0.0
-    gauss[unused] = 0.0
+        quarter = np.multiply(0.125, ff.dbl, out=g[0])  # area / 4
+        np.copyto(slots, quarter, where=obtuse_face)
+        quarter *= 2.0  # area / 2 at the obtuse corner itself
+        np.copyto(slots, quarter, where=ob)
+    amix = sums.sum_corners(corner, rows=rows)
+    np.arctan2(ff.dbl, ff.dots, out=slots)
+    angle_sum = sums.sum_corners(corner, rows=rows)
+    np.maximum(amix, TINY, out=amix)  # a_safe
+    lap *= lap
+    mean_abs = np.add(lap[0], lap[1])
+    mean_abs += lap[2]
+    np.sqrt(mean_abs, out=mean_abs)
+    mean_abs /= 4.0 * amix
+    gauss = np.subtract(2 * np.pi, angle_sum, out=angle_sum)
+    gauss /= amix
+    if not topo.all_vertices_used:
+        unused = ~topo.used_vertices
+        mean_abs[unused] = 0.0
+        gauss[unused] = 0.0
     return mean_abs, gauss
 
 

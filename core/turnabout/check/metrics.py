@@ -14,8 +14,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .curvature import TINY, FaceFrame, curvature_of_frame, face_frame
+from .curvature import (
+    TINY,
+    FaceFrame,
+    corner_pair_sums,
+    curvature_of_frame,
+    face_frame,
+    padded_corner_buffer,
+)
 from .topology import MeshTopology
+from .vertex_sums import CornerSums
 
 _TWO_SQRT3 = 2.0 * np.sqrt(3.0)
 
@@ -43,11 +51,19 @@ class ReferenceFrame:
     inverse_quality: np.ndarray
     crease_neighbours: np.ndarray
     all_crease_neighbours: bool  # every edge has a neighbour on both sides
+    # the two columns of crease_neighbours as contiguous (E,) intp arrays
+    crease_neighbour_columns: tuple[np.ndarray, np.ndarray]
 
 
-def face_quality(ff: FaceFrame) -> np.ndarray:
+def face_quality(ff: FaceFrame, out: np.ndarray | None = None) -> np.ndarray:
     """(M,) shape quality 2 sqrt(3) (2 area) / (sum of squared edges): 1 equilateral, 0 flat."""
-    return _TWO_SQRT3 * ff.dbl / np.maximum(ff.l0 + ff.l1 + ff.l2, TINY)
+    L = ff.sq_len
+    den = np.add(L[0], L[1])
+    den += L[2]
+    np.maximum(den, TINY, out=den)
+    q = np.multiply(_TWO_SQRT3, ff.dbl, out=out)
+    q /= den
+    return q
 
 
 def _components(P: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -101,6 +117,10 @@ def reference_frame(P0: np.ndarray, topo: MeshTopology) -> ReferenceFrame:
         inverse_quality=1.0 / np.maximum(quality, TINY),
         crease_neighbours=nb,
         all_crease_neighbours=bool(np.all(nb >= 0)),
+        crease_neighbour_columns=(
+            np.ascontiguousarray(nb[:, 0], np.intp),
+            np.ascontiguousarray(nb[:, 1], np.intp),
+        ),
     )
 
 
@@ -122,6 +142,26 @@ class FrameMetrics:
     area: float
 
 
+def _local_length(
+    ff: FaceFrame,
+    topo: MeshTopology,
+    sums: CornerSums,
+    corner: np.ndarray | None = None,
+    rows: np.ndarray | None = None,
+    root: np.ndarray | None = None,
+) -> np.ndarray:
+    """(V,) mean length of the edges at each vertex: over the corners' two edges (each edge
+    counted from both faces). Buffers to reuse: corner (3M + 1,), rows (W, V), root (3, M)."""
+    m = topo.n_faces
+    if corner is None:
+        corner = padded_corner_buffer(m)[0]
+    root = np.sqrt(ff.sq_len, out=root)
+    corner_pair_sums(root, corner[: 3 * m].reshape(3, m))
+    length = sums.sum_corners(corner, rows=rows)
+    length *= topo.inverse_twice_degree
+    return length
+
+
 def frame_metrics(
     P: np.ndarray,
     topo: MeshTopology,
@@ -130,6 +170,7 @@ def frame_metrics(
     previous_length: np.ndarray | None = None,
     concentration_floor_deg: float = CONCENTRATION_FLOOR_DEG,
     orientable: bool = True,
+    sums: CornerSums | None = None,
 ) -> FrameMetrics:
     """All local metrics of one frame P (V, 3).
 
@@ -138,91 +179,88 @@ def frame_metrics(
     concentration_floor_deg : floor (degrees) for the neighbours' mean angle, so that flat
     surroundings do not divide by zero.
     orientable : False skips the volume and degree (they need an orientation).
+    sums : the topology's :class:`CornerSums` (built once per animation; built for this
+    call when None).
+
+    The (M,)-sized intermediates live in few buffers, each reused once its content is
+    spent (the comments say which): the memory one frame touches stays a fraction of the
+    cache, which is most of the speed.
     """
-    n = topo.n_vertices
+    sums = CornerSums(topo) if sums is None else sums
+    n, m = topo.n_vertices, topo.n_faces
     used = topo.used_vertices
     all_used = topo.all_vertices_used
     X0, Y0, Z0 = _components(P)
+    if previous is not None and previous_length is None:
+        # exactly as that frame's own metrics computed it
+        Q = np.asarray(previous, np.float64)
+        previous_length = _local_length(face_frame(*_centred(*_components(Q), topo), topo),
+                                        topo, sums)  # fmt: skip
     X, Y, Z = _centred(X0, Y0, Z0, topo)
     ff = face_frame(X, Y, Z, topo)
     dbl = ff.dbl
-    inv = 1.0 / np.maximum(dbl, TINY)
-    unx, uny, unz = ff.nx * inv, ff.ny * inv, ff.nz * inv
+    N = ff.normal
+    area = float(0.5 * dbl.sum())
+    spare = ff.corners  # (3, 3, M): free once the volume has used corner 0
+    if orientable:
+        # divergence theorem: sum over faces of p0 . n / 6 (a pairwise sum: the same on
+        # every machine, unlike a BLAS dot product)
+        p0n = np.multiply(spare[:, 0], N, out=spare[:, 1])
+        vol = np.add(p0n[0], p0n[1])
+        vol += p0n[2]
+        volume = float(vol.sum()) / 6.0
+        del vol, p0n
+    else:
+        volume = float("nan")
 
-    area_ratio = (0.5 * dbl) * ref.inverse_area
-    quality_ratio = face_quality(ff) * ref.inverse_quality
+    area_ratio = np.multiply(0.5, dbl)
+    area_ratio *= ref.inverse_area
+    quality_ratio = face_quality(ff)
+    quality_ratio *= ref.inverse_quality
+    un = np.multiply(N, ff.inv_dbl)  # (3, M) unit normals
 
     # crease: angle between the unit normals of each edge's two faces; on a non-orientable
     # mesh an edge traversed the same way by both faces compares n with -n.
     fa, fb = topo.edge_face_columns
-    cosang = unx.take(fa) * unx.take(fb)
-    cosang += uny.take(fa) * uny.take(fb)
-    cosang += unz.take(fa) * unz.take(fb)
+    ne = fa.shape[0]
+    ta, tb = np.empty(ne), np.empty(ne)
+    cosang = np.empty(ne)
+    for c in range(3):
+        un[c].take(fa, out=ta, mode="clip")
+        un[c].take(fb, out=tb, mode="clip")
+        if c == 0:
+            np.multiply(ta, tb, out=cosang)
+        else:
+            ta *= tb
+            cosang += ta
     if topo.has_flipped_edges:
         cosang *= topo.edge_flip_sign
     np.minimum(cosang, 1.0, out=cosang)
     np.maximum(cosang, -1.0, out=cosang)
-    crease = np.arccos(cosang)
+    crease = np.arccos(cosang, out=cosang)
     crease *= 180.0 / np.pi
     if not topo.is_edge_manifold:
         crease[~topo.manifold_edges] = 0.0
     # concentration: the edge's angle over the mean angle of its neighbours one row over
     # (chosen on the reference frame), floored so that flat surroundings do not divide by 0
-    nb = ref.crease_neighbours
     if ref.all_crease_neighbours:
-        side_mean = crease.take(nb[:, 0])
-        side_mean += crease.take(nb[:, 1])
+        nb0, nb1 = ref.crease_neighbour_columns
+        side_mean = crease.take(nb0, out=ta, mode="clip")
+        side_mean += crease.take(nb1, out=tb, mode="clip")
         side_mean *= 0.5
     else:
+        nb = ref.crease_neighbours
         ok = nb >= 0
         vals = np.where(ok, crease[np.maximum(nb, 0)], 0.0)
         side_mean = vals.sum(axis=1) / np.maximum(ok.sum(axis=1), 1)
-    concentration = crease / np.maximum(side_mean, concentration_floor_deg)
-
-    # vertex normals (area weighted, fan-oriented) and fold agreement
-    idx = topo.corner_index_slot_major
-    f0, f1, f2 = topo.corner_columns
-    flat_fans = not topo.has_flipped_edges
-    if flat_fans:
-        wx = np.concatenate([ff.nx, ff.nx, ff.nx])
-        wy = np.concatenate([ff.ny, ff.ny, ff.ny])
-        wz = np.concatenate([ff.nz, ff.nz, ff.nz])
-    else:
-        sgn = topo.corner_fan_signs_slot_major
-        wx = sgn * np.concatenate([ff.nx, ff.nx, ff.nx])
-        wy = sgn * np.concatenate([ff.ny, ff.ny, ff.ny])
-        wz = sgn * np.concatenate([ff.nz, ff.nz, ff.nz])
-    vx = np.bincount(idx, wx, minlength=n)
-    vy = np.bincount(idx, wy, minlength=n)
-    vz = np.bincount(idx, wz, minlength=n)
-    vinv = 1.0 / np.maximum(np.sqrt(vx * vx + vy * vy + vz * vz), TINY)
-    vx *= vinv
-    vy *= vinv
-    vz *= vinv
-    corner_normals = []
-    dots = []
-    for fk in (f0, f1, f2):
-        ax, ay, az = vx.take(fk), vy.take(fk), vz.take(fk)
-        corner_normals.append((ax, ay, az))
-        d = ax * unx
-        d += ay * uny
-        d += az * unz
-        dots.append(d)
-    corner_dot = np.concatenate(dots)
-    if not flat_fans:
-        corner_dot *= topo.corner_fan_signs_slot_major
-    starts = topo.vertex_corner_starts
-    if all_used:
-        fold = np.minimum.reduceat(corner_dot.take(topo.slot_major_corner_order), starts[:-1])
-    else:
-        fold = np.ones(n)
-        if used.any():
-            fold[used] = np.minimum.reduceat(
-                corner_dot.take(topo.slot_major_corner_order), starts[:-1][used]
-            )
+    np.maximum(side_mean, concentration_floor_deg, out=side_mean)
+    concentration = np.divide(crease, side_mean)
+    del ta, tb, side_mean
 
     # tight bend: 1 / (largest absolute principal curvature), relative to the frame's size
-    h, k = curvature_of_frame(ff, topo)
+    corner = padded_corner_buffer(m)[0]  # corner values for every per-vertex sum below
+    rows = sums.rows_buffer()
+    h, k = curvature_of_frame(ff, topo, sums, work=spare, corner=corner, rows=rows)
     with np.errstate(invalid="ignore", over="ignore"):  # inf at collapsed faces (a pinch)
         disc = h * h
         disc -= k
@@ -241,10 +279,7 @@ def frame_metrics(
     if not all_used:
         bend[~used] = np.inf
 
-    # local edge length: mean over the corners' two edges (each edge counted from both faces)
-    s0, s1, s2 = np.sqrt(ff.l0), np.sqrt(ff.l1), np.sqrt(ff.l2)
-    local_len = np.bincount(idx, np.concatenate([s0 + s2, s1 + s0, s2 + s1]), minlength=n)
-    local_len *= topo.inverse_twice_degree
+    local_len = _local_length(ff, topo, sums, corner, rows, root=spare[0])
     if previous is None:
         step = np.zeros(n)
     else:
@@ -252,13 +287,6 @@ def frame_metrics(
         dx = X0 - Q[:, 0]
         dy = Y0 - Q[:, 1]
         dz = Z0 - Q[:, 2]
-        if previous_length is None:  # exactly as that frame's own metrics computed it
-            pff = face_frame(*_centred(*_components(Q), topo), topo)
-            q0, q1, q2 = np.sqrt(pff.l0), np.sqrt(pff.l1), np.sqrt(pff.l2)
-            previous_length = np.bincount(
-                idx, np.concatenate([q0 + q2, q1 + q0, q2 + q1]), minlength=n
-            )
-            previous_length = previous_length * topo.inverse_twice_degree
         dx *= dx
         dy *= dy
         dz *= dz
@@ -272,15 +300,64 @@ def frame_metrics(
         if not all_used:
             step[~used] = 0.0
 
+    # vertex normals (area weighted, fan-oriented) and fold agreement; from here on the
+    # edges, squared lengths and corner dot products of ff are spent: their buffers hold
+    # the corner normals (edges), corner agreement (dots) and products (sq_len)
+    vn = np.empty((3, n))
+    flat_fans = not topo.has_flipped_edges
+    if flat_fans:
+        for c in range(3):
+            sums.sum_faces(ff.normal_padded[c], out=vn[c], rows=rows)
+    else:
+        sgn = topo.corner_fan_signs_slot_major.reshape(3, m)
+        for c in range(3):
+            np.multiply(sgn, N[c], out=corner[: 3 * m].reshape(3, m))
+            sums.sum_corners(corner, out=vn[c], rows=rows)
+    vinv = np.multiply(vn[0], vn[0])
+    vinv += vn[1] * vn[1]
+    vinv += vn[2] * vn[2]
+    np.sqrt(vinv, out=vinv)
+    np.maximum(vinv, TINY, out=vinv)
+    np.divide(1.0, vinv, out=vinv)
+    vn *= vinv
+    cols = topo.corner_columns
+    cn = ff.edges  # cn[c, k]: coordinate c of the vertex normal at corner k
+    for c in range(3):
+        for k in range(3):
+            vn[c].take(cols[k], out=cn[c, k], mode="clip")
+    corner_dot = np.multiply(cn[0], un[0], out=ff.dots)  # (3, M), slot-major
+    t3 = ff.sq_len
+    for c in (1, 2):
+        np.multiply(cn[c], un[c], out=t3)
+        corner_dot += t3
+    if not flat_fans:
+        corner_dot *= topo.corner_fan_signs_slot_major.reshape(3, m)
+    fold = sums.min_corners(corner_dot.reshape(-1), rows=rows)
+
     if orientable:
-        volume = float(np.dot(ff.x0, ff.nx) + np.dot(ff.y0, ff.ny) + np.dot(ff.z0, ff.nz)) / 6.0
         # degree: signed solid angles of the spherical triangles spanned by vertex normals
-        # (Van Oosterom & Strackee, "The solid angle of a plane triangle", 1983)
-        (ax, ay, az), (bx, by, bz), (qx, qy, qz) = corner_normals
-        triple = ax * (by * qz - bz * qy) + ay * (bz * qx - bx * qz) + az * (bx * qy - by * qx)
-        den = 1.0 + (ax * bx + ay * by + az * bz) + (bx * qx + by * qy + bz * qz)
-        den += qx * ax + qy * ay + qz * az
-        degree = float(2.0 * np.arctan2(triple, den).sum() / (4 * np.pi))
+        # (Van Oosterom & Strackee, "The solid angle of a plane triangle", 1983); a, b, q
+        # are the vertex normals at corners 0, 1, 2
+        a, b, q = cn[:, 0], cn[:, 1], cn[:, 2]
+        cross, tmp = t3, ff.inv_dbl  # b x q; inv_dbl is spent
+        for c in range(3):
+            i, j = (c + 1) % 3, (c + 2) % 3
+            np.multiply(b[i], q[j], out=cross[c])
+            np.multiply(b[j], q[i], out=tmp)
+            cross[c] -= tmp
+        cross *= a
+        triple = np.add(cross[0], cross[1], out=dbl)  # dbl is spent
+        triple += cross[2]
+        pairs = spare  # pairs[c, i]: a b, b q, q a, coordinate c
+        np.multiply(cn[:, :2], cn[:, 1:], out=pairs[:, :2])
+        np.multiply(q, a, out=pairs[:, 2])
+        dots = np.add(pairs[0], pairs[1], out=t3)  # (a.b, b.q, q.a)
+        dots += pairs[2]
+        den = np.add(1.0, dots[0], out=tmp)
+        den += dots[1]
+        den += dots[2]
+        solid = np.arctan2(triple, den, out=triple)
+        degree = float(2.0 * solid.sum() / (4 * np.pi))
         # an integer up to rounding (the solid angles tile the sphere a whole number of
         # times): snap float noise to it, so that a torus reports 0.0, never -0.0 or -4e-17
         nearest = round(degree)
@@ -288,7 +365,6 @@ def frame_metrics(
             degree = float(nearest)
         degree += 0.0  # -0.0 -> 0.0
     else:
-        volume = float("nan")
         degree = float("nan")
     return FrameMetrics(
         area_ratio=area_ratio,
@@ -302,7 +378,7 @@ def frame_metrics(
         signed_volume=volume,
         degree=degree,
         size=size,
-        area=float(0.5 * dbl.sum()),
+        area=area,
     )
 
 
