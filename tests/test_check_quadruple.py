@@ -64,12 +64,14 @@ def test_four_spheres_meeting_once_have_one_quadruple_point_at_the_circumcentre(
     assert sorted(q.faces[0] // (F.shape[0] // 4)) == [0, 1, 2, 3]
 
 
+@pytest.mark.parametrize("substeps", [1, 8])
 @pytest.mark.parametrize("frames", [2, 4, 6])
-def test_few_frames_find_the_one_quadruple_point_with_substeps(frames):
-    # near the moment the triple points move much faster than the vertices; seeding each
-    # interval from intermediate positions too finds the moment wherever it falls
+def test_few_frames_find_the_one_quadruple_point(frames, substeps):
+    # near the moment the triple points move much faster than the vertices (across several
+    # triangles of each sphere per frame): one seen triple completed by every triangle that
+    # may meet all three, and intermediate seeding positions (substeps), each find it
     P, F = four_spheres(frames=frames)
-    q = quadruple_points(P, F, substeps=8)
+    q = quadruple_points(P, F, substeps=substeps)
     assert q.count == 1 and np.linalg.norm(q.position[0]) < 0.02
     # the same moment of the motion, whatever the frame count: R = 1 a little before t = 1/2
     assert 0.47 < q.time[0] / (frames - 1) < 0.5
@@ -114,6 +116,114 @@ def test_four_moving_planes_meet_at_the_predicted_moment():
     assert abs(q.time[0] - 0.75) < 1e-9
     assert np.allclose(q.position[0], [0.25, 0.0, 0.0], atol=1e-9)
     assert sorted(q.faces[0].tolist()) == [0, 1, 2, 3]
+
+
+# a fixed generic frame: a rotation and a shift, so no coordinate is exactly zero
+_ROT = _turn(0.7, 1.3) @ _turn(2.1, 0.4)
+_SHIFT = np.array([0.31, -0.17, 0.23])
+_BIG = np.array([[-3.0, -3.0], [3.5, -2.5], [-2.0, 3.0]])
+
+
+def _plane_triangle(normal, offset: float) -> np.ndarray:
+    """A big triangle (3, 3) in the plane normal . y = offset (y the unturned coordinates),
+    around the plane's point nearest the origin, then turned and shifted by _ROT, _SHIFT."""
+    n = np.asarray(normal, float) / np.linalg.norm(normal)
+    e1 = np.cross(n, [0.3, 0.5, 0.8])
+    e1 /= np.linalg.norm(e1)
+    e2 = np.cross(n, e1)
+    y = offset * n + _BIG[:, :1] * e1 + _BIG[:, 1:] * e2
+    return y @ _ROT.T + _SHIFT
+
+
+def four_planes(delta: float, frames: int = 2, copy_at=None, copy_offset: float = 0.0):
+    """Triangles in the planes x = 0, y = 0, z = 0 (fixed) and x + y + z = 3 delta: the
+    first three meet at the origin, so the four triple points are the origin and the fourth
+    plane's points 3 delta out on each axis (elementary geometry). Static over ``frames``
+    frames. ``copy_at`` adds a
+    copy of the four triangles shifted by that vector, whose fourth plane moves from
+    offset -1 to 1 (plus ``copy_offset``): a quadruple point at s = 1/2 - copy_offset / 2."""
+    base = [_plane_triangle(ax, 0.0) for ax in np.eye(3)]
+    d = _plane_triangle([1.0, 1.0, 1.0], np.sqrt(3) * delta)
+    out = []
+    for s in np.linspace(0.0, 1.0, frames):
+        tris = base + [d]
+        if copy_at is not None:
+            tris += [t + copy_at for t in base]
+            tris += [_plane_triangle([1.0, 1.0, 1.0], 2 * s - 1 + copy_offset) + copy_at]
+        out.append(np.concatenate(tris))
+    return np.array(out), np.arange(3 * len(tris)).reshape(-1, 3)
+
+
+@pytest.mark.parametrize("delta", [1e-4, 1e-3])
+def test_four_triple_points_inside_the_merge_radius_are_not_four_sheets_through_one_point(delta):
+    # four sheets that never share a point: their four triple points are distinct but closer
+    # than the merge radius (1 % of an edge of these triangles, edges about 6 long), so the
+    # frame sees one point with 12 detections. Only 3 of them agree to rounding, and no
+    # quadruple point exists (the fourth plane never reaches the others' common point)
+    from turnabout.check import self_intersections
+    from turnabout.check.intersections import TRIPLE_MERGE
+    from turnabout.check.topology import MeshTopology
+
+    P, F = four_planes(delta, frames=3)
+    res = self_intersections(P[0], MeshTopology(F, P.shape[1]))
+    assert 3 * np.sqrt(2) * delta < TRIPLE_MERGE * 6  # the four points' largest distance
+    assert list(res.triple_detections) == [12] and list(res.triple_coincident) == [3]
+    q = quadruple_points(P, F)
+    assert q.count == 0 and q.general_position and q.notes == []
+
+
+def test_four_sheets_through_one_point_at_a_frame_are_not_general_position():
+    # the same four planes through one point (delta = 0): twelve detections that agree to
+    # rounding, in every frame (and the planes keep that common point)
+    from turnabout.check import self_intersections
+    from turnabout.check.topology import MeshTopology
+
+    P, F = four_planes(0.0, frames=3)
+    res = self_intersections(P[0], MeshTopology(F, P.shape[1]))
+    assert list(res.triple_detections) == [12] and list(res.triple_coincident) == [12]
+    q = quadruple_points(P, F)
+    assert not q.general_position
+    assert any("frame(s) with points where four or more sheets meet" in n for n in q.notes)
+
+
+@pytest.mark.parametrize(("offset", "copies"), [(0.0, True), (2e-8, False), (-2e-6, False)])
+def test_only_moments_equal_to_rounding_are_shared(offset, copies):
+    # two groups of four planes far apart, each with one quadruple point (the fourth plane
+    # of each crosses the other three's common point): a translated copy (offset 0) meets at
+    # the very same moment, s = 1/2 (elementary geometry), a symmetric pair; a copy whose
+    # fourth plane starts 2e-8 further on meets 1e-8 of a frame earlier: two moments
+    def one_group(shift, extra):
+        P, F = four_planes(0.0, copy_at=shift, copy_offset=extra)
+        return P[:, 12:], F[:4]
+
+    (A, fa), (B, _) = one_group(np.zeros(3), 0.0), one_group(np.array([40.0, 0, 0]), offset)
+    P, F = np.concatenate([A, B], axis=1), np.concatenate([fa, fa + 12])
+    q = quadruple_points(P, F)
+    assert q.count == 2 and np.all(q.confirmed)
+    assert sorted(q.time) == pytest.approx([0.5 - max(offset, 0) / 2, 0.5 - min(offset, 0) / 2],
+                                           abs=1e-12)  # fmt: skip
+    assert any("share their moment" in n for n in q.notes) == copies
+    assert q.general_position == (not copies)
+
+
+def test_a_quadruple_point_seen_only_as_merged_triple_points_is_found():
+    # x = 0 and y = 0 fixed, z = 10 s rising out of both, and the plane x + y + z =
+    # sqrt(3) off(s), off(s) = 10 s / sqrt(3) + d0 (1 - s / s0): the first three meet at
+    # (0, 0, 10 s), on the fourth exactly when s = s0 (elementary geometry). At frame 0 the
+    # four triple points lie within 3e-4 of each other, one merged point; at frame 1 no sheet
+    # meets another inside its triangle: the only seeds are the merged point's four triples
+    d0, s0 = 1e-4, 1e-3
+    P = []
+    for s in (0.0, 1.0):
+        off = 10 * s / np.sqrt(3) + d0 * (1 - s / s0)
+        tris = [_plane_triangle([1, 0, 0], 0.0), _plane_triangle([0, 1, 0], 0.0),
+                _plane_triangle([0, 0, 1], 10 * s), _plane_triangle([1, 1, 1], off)]  # fmt: skip
+        P.append(np.concatenate(tris))
+    P, F = np.array(P), np.arange(12).reshape(4, 3)
+    q = quadruple_points(P, F)
+    assert q.count == 1 and q.general_position and bool(q.confirmed[0])
+    assert abs(q.time[0] - s0) < 1e-9
+    assert np.allclose(q.position[0], np.array([0, 0, 10 * s0]) @ _ROT.T + _SHIFT, atol=1e-9)
 
 
 def test_a_symmetric_motion_is_reported_as_not_in_general_position():
@@ -220,3 +330,27 @@ def test_the_symmetric_eversion_is_not_in_general_position_and_the_displaced_one
     assert gen.count > 0 and np.all(gen.confirmed)
     assert not any("more than four sheets" in n or "symmetric copies" in n for n in gen.notes)
     assert not any("common point for a whole interval" in n for n in gen.notes)
+
+
+def test_a_window_of_the_generic_default_eversion_is_certified_and_denser_seeding_adds_nothing():
+    # five frames of the default build (94,080 triangles) where the displaced motion has
+    # about a hundred quadruple points: no coincident triple points, no shared moments, every
+    # point confirmed, and seeding from four positions per interval instead of the default
+    # finds exactly the same points (the parity itself needs the whole eversion: see
+    # docs/checker.md for the full count)
+    from turnabout.eversion import Controls, evaluate, mesh_for
+    from turnabout.eversion.controls import default_frames
+    from turnabout.eversion.generic import break_symmetry
+
+    c = Controls()
+    mesh = mesh_for(c)
+    F = mesh.triangles()
+    t = np.linspace(0.0, 1.0, default_frames(c.strips))[236:241]
+    rest = evaluate(c, [0.0], mesh)[0]
+    G = break_symmetry(evaluate(c, t, mesh), F, t, rest=rest)
+    q = quadruple_points(G, F)
+    assert q.general_position and q.notes == [], q.notes
+    assert q.count > 50 and np.all(q.confirmed)
+    dense = quadruple_points(G, F, substeps=4)
+    assert dense.count == q.count
+    assert np.allclose(np.sort(dense.time), np.sort(q.time), atol=1e-9)

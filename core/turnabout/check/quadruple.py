@@ -14,17 +14,17 @@ sampled at ten Chebyshev nodes, which fixes it exactly; its real roots in [0, 1]
 bracketed on a fine grid and refined by bisection; each root's common point is kept when
 it lies inside all four moving triangles.
 
-Candidates grow from the triple points at the two ends of the interval (the moving triple
-point of three sheets is what meets the fourth): each triple of triangles is widened by
-letting one triangle be any that shares a vertex with it (the triple point may cross an
-edge during the interval), and two widened triples that share two triangles make a
-candidate when their other two triangles may meet while moving: no shared vertex,
-overlapping boxes of the six end positions (the convex hull of which holds the moving
-triangle), and no separation along either mid-motion normal. Near the moment all four
-triples are triple points, so at least two are seen. This assumes a triple point crosses at
-most about one triangle edge between two seeding positions: an interval where some vertex
-moves further than the mean length of its edges (the checker's step metric) is also seeded
-from intermediate positions, one per such length moved, and ``substeps`` asks for more.
+Candidates (quadruple_seeds.py) grow from the triple points of the frames at the two ends of
+the interval, every distinct one, also those the triple-point merge radius gathered (the
+moving triple point of three sheets is what meets the fourth): each triple of triangles is
+widened by letting one triangle be any that shares a vertex with it, and each widened triple
+is completed by every fourth triangle that may meet all three while moving (no shared
+vertex, overlapping boxes of the six end positions, which hold the moving triangle, no
+separation along either mid-motion normal) and whose box meets the common part of theirs.
+Near the moment all four triples are triple points, and one of them seen within one
+triangle of where it is at the moment is enough. An interval where some vertex moves further
+than the mean length of its edges (the checker's step metric) is also seeded from
+intermediate positions, one per such length moved, and ``substeps`` asks for more.
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -36,10 +36,14 @@ General position: Max and Banchoff ("Every sphere eversion has a quadruple point
 Contributions to Analysis and Geometry, Johns Hopkins University Press, 1981) prove that a
 sphere eversion in general position has an odd number of quadruple points. A symmetric
 motion is not in general position: several quadruple points at one moment (copies under
-the symmetry), more than four sheets through one point, four planes that keep a common
-point for a whole interval, or four sheets through one point at a frame with no quadruple
-point detected next to it. These are reported in ``notes`` and ``general_position`` is
-False, so a count is never read as a parity it cannot carry.
+the symmetry: moments equal to rounding, COPY_MOMENT), more than four sheets through one
+point, four planes that keep a common point for a whole interval, or four sheets through one
+point at a frame (triple-point detections of four or more sheets that agree to rounding,
+intersections.COINCIDENT) with no quadruple point detected next to it. These are reported
+in ``notes`` and ``general_position`` is False, so a count is never read as a parity it
+cannot carry. Distinct triple points that merely lie within the triple-point merge radius
+of each other at a frame (1 % of an edge) are not four sheets through one point: whether
+their sheets meet between frames is what the interval solve decides.
 """
 
 from __future__ import annotations
@@ -49,19 +53,25 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..progress import ProgressFn, no_progress
-from .intersections import grid_candidate_pairs, self_intersections
+from .intersections import self_intersections
+from .quadruple_seeds import SweptGraph, seeded_quadruples, swept_graph
 from .topology import MeshTopology, as_triangles
 
 DEGREE = 9  # degree of D(s)
 CHUNK = 20000  # quadruples solved at once (memory: about 10 kB each)
 ROOT_GRID = 256  # samples of D(s) on [0, 1] used to bracket its roots
 SAME_MOMENT = 1e-7  # detections closer than this in s (and in space) are one point
+COPY_MOMENT = 1e-10  # distinct points closer than this in s (frames) share their moment: the
+# copies of a symmetric motion agree to about 1e-14 (measured on the symmetric default
+# eversion), while the densest bursts of a generic one (about 2,000 points in a tenth of a
+# frame) put two of them within 1e-10 with a chance of about 1 in 250
 SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
 EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
 # edge lengths, within a frame of its moment) is that quadruple point seen at the frame
 _TINY = 1e-300
 MAX_STEP = 1.0  # local edge lengths (mean at the vertex) moved between seeding positions
 MAX_PIECES = 16
+MIN_REFINE = 1.0 / 64  # smallest piece of an interval refined by its midpoint's seeds
 INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
 # is found in both triangles and merged)
 
@@ -117,126 +127,6 @@ class QuadruplePoints:
                 )
             ],
         }
-
-
-# --------------------------------------------------------------------------- candidates
-
-
-def swept_pairs(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
-    """Pairs (a, b), a < b, of triangles sharing no vertex that may meet while moving.
-
-    P0, P1 : (V, 3) float64 positions at the ends of a (short) linear motion. The moving
-    triangle stays in the convex hull of its six end positions; a pair is kept when the
-    hulls' boxes overlap and neither triangle's mid-motion normal separates the hulls
-    (a separating axis rules out any contact). Returns two (K,) int64.
-    """
-    faces = topo.faces
-    corners = np.concatenate([P0[faces], P1[faces]], axis=1)  # (M, 6, 3)
-    a, b = grid_candidate_pairs(corners.min(axis=1), corners.max(axis=1))
-    fa, fb = faces[a], faces[b]
-    share = np.zeros(a.size, bool)
-    for i in range(3):
-        for j in range(3):
-            share |= fa[:, i] == fb[:, j]
-    a, b = a[~share], b[~share]
-    mid = 0.5 * (corners[:, :3] + corners[:, 3:])
-    n = np.cross(mid[:, 1] - mid[:, 0], mid[:, 2] - mid[:, 0])
-    n /= np.maximum(np.linalg.norm(n, axis=1, keepdims=True), 1e-300)
-    keep = np.ones(a.size, bool)
-    for t, o in ((a, b), (b, a)):
-        own = np.einsum("kvi,ki->kv", corners[t], n[t])
-        other = np.einsum("kvi,ki->kv", corners[o], n[t])
-        margin = 1e-9 * (np.abs(own).max(axis=1) + np.abs(other).max(axis=1))
-        keep &= ~(
-            (other.min(axis=1) > own.max(axis=1) + margin)
-            | (other.max(axis=1) < own.min(axis=1) - margin)
-        )
-    return a[keep], b[keep]
-
-
-def face_rings(topo: MeshTopology) -> tuple[np.ndarray, np.ndarray]:
-    """Faces sharing a vertex with each face (itself included), as CSR (start (M+1,), ids)."""
-    m = topo.n_faces
-    f = np.repeat(np.arange(m), 3)
-    v = topo.faces.ravel()
-    order = np.argsort(v, kind="stable")
-    v, f = v[order], f[order]
-    vstart = np.searchsorted(v, np.arange(topo.n_vertices + 1))
-    cnt = np.diff(vstart)[v]  # faces at each corner's vertex
-    owner = np.repeat(f, cnt)
-    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-    other = f[np.repeat(vstart[v], cnt) + local]
-    key = np.unique(owner * m + other)
-    return np.searchsorted(key // m, np.arange(m + 1)), key % m
-
-
-def _csr_pairs(a: np.ndarray, b: np.ndarray, m: int):
-    """Symmetric adjacency of the pairs (a, b) as CSR (start (m+1,), ids) and sorted keys."""
-    u = np.concatenate([a, b])
-    w = np.concatenate([b, a])
-    key = np.unique(u * m + w)
-    return np.searchsorted(key // m, np.arange(m + 1)), key % m, key
-
-
-def _expand(start: np.ndarray, ids: np.ndarray, rows: np.ndarray, col: int) -> np.ndarray:
-    """Rows (R, k) with column ``col`` replaced by each of its CSR neighbours: (R', k)."""
-    v = rows[:, col]
-    cnt = start[v + 1] - start[v]
-    owner = np.repeat(np.arange(rows.shape[0]), cnt)
-    local = np.arange(owner.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
-    out = rows[owner].copy()
-    out[:, col] = ids[start[v[owner]] + local]
-    return out
-
-
-def seeded_quadruples(
-    triples: np.ndarray, P0: np.ndarray, P1: np.ndarray, topo: MeshTopology
-) -> np.ndarray:
-    """Candidate quadruples (Q, 4) int64 (sorted rows, unique) grown from triple points.
-
-    triples : (T, 3) int the three triangles of each triple point seen at either end of the
-    interval. Each triple is widened by letting one of its triangles be any triangle that
-    shares a vertex with it (the triple point may cross an edge during the interval); two
-    widened triples sharing two triangles whose other two may meet (swept_pairs) make a
-    quadruple.
-    """
-    m = topo.n_faces
-    if triples.shape[0] == 0:
-        return np.zeros((0, 4), np.int64)
-    rs, rid = face_rings(topo)
-    t = np.sort(np.asarray(triples, np.int64), axis=1)
-    wide = np.unique(np.sort(np.concatenate([_expand(rs, rid, t, c) for c in range(3)]), 1), axis=0)
-    wide = wide[(wide[:, 0] != wide[:, 1]) & (wide[:, 1] != wide[:, 2])]
-    a, b = swept_pairs(P0, P1, topo)
-    ps, pid, keys = _csr_pairs(a, b, m)
-
-    def has(u, v):
-        k = u * m + v
-        pos = np.minimum(np.searchsorted(keys, k), max(keys.size - 1, 0))
-        return keys[pos] == k if keys.size else np.zeros(k.shape, bool)
-
-    # the widened triple must itself be pairwise in the swept graph
-    ok = has(wide[:, 0], wide[:, 1]) & has(wide[:, 0], wide[:, 2]) & has(wide[:, 1], wide[:, 2])
-    wide = wide[ok]
-    # two widened triples sharing two triangles make a quadruple (near the moment all four
-    # of its triples are triple points, so at least two of them are seen)
-    pair_key = np.concatenate([wide[:, 0] * m + wide[:, 1], wide[:, 0] * m + wide[:, 2],
-                               wide[:, 1] * m + wide[:, 2]])  # fmt: skip
-    third = np.concatenate([wide[:, 2], wide[:, 1], wide[:, 0]])
-    order = np.lexsort((third, pair_key))
-    pair_key, third = pair_key[order], third[order]
-    new = np.ones(pair_key.size, bool)
-    new[1:] = pair_key[1:] != pair_key[:-1]
-    gstart = np.flatnonzero(new)
-    gsize = np.diff(np.append(gstart, pair_key.size))
-    partners = np.repeat(gstart + gsize, gsize) - np.arange(pair_key.size) - 1
-    first = np.repeat(np.arange(pair_key.size), partners)
-    second = first + 1 + np.arange(first.size) - np.repeat(np.cumsum(partners) - partners, partners)
-    c, d = third[first], third[second]
-    ok = (c != d) & has(np.minimum(c, d), np.maximum(c, d))
-    pk = pair_key[first[ok]]
-    quad = np.sort(np.column_stack([pk // m, pk % m, c[ok], d[ok]]), axis=1)
-    return np.unique(quad, axis=0) if quad.size else np.zeros((0, 4), np.int64)
 
 
 # --------------------------------------------------------------------------- D(s)
@@ -340,28 +230,82 @@ def _tetra_sign(C0, C1, s) -> np.ndarray:
 
 
 def quadruple_points_between(
-    P0: np.ndarray, P1: np.ndarray, topo: MeshTopology, triples: np.ndarray
+    P0: np.ndarray,
+    P1: np.ndarray,
+    topo: MeshTopology,
+    triples: np.ndarray,
+    graph: SweptGraph | None = None,
 ):
     """Quadruple points while the vertices move linearly from P0 to P1 ((V, 3) float).
 
-    triples : (T, 3) int triangles of the triple points at either end (seeds of the
-    candidates, see seeded_quadruples). Returns unmerged detections (s (N,), position
-    (N, 3), faces (N, 4), confirmed (N,)), the count of quadruples whose four planes keep a
-    common point for the whole interval, and the count of candidates.
+    triples : (T, 3) int triangles of the triple points at seeding positions (seeds of the
+    candidates, see seeded_quadruples); graph : the interval's swept_graph (built here when
+    None). Returns unmerged detections (s (N,), position (N, 3), faces (N, 4), confirmed
+    (N,)), the count of quadruples whose four planes keep a common point for the whole
+    interval, the count of candidates and the candidates themselves (Q, 4) int64.
     """
     P0 = np.asarray(P0, np.float64)
     P1 = np.asarray(P1, np.float64)
-    quads = seeded_quadruples(triples, P0, P1, topo)
+    quads = seeded_quadruples(triples, P0, P1, topo, graph)
+    return (*_solve_chunked(P0, P1, topo, quads), quads)
+
+
+def _solve_chunked(P0, P1, topo: MeshTopology, quads: np.ndarray):
     empty = (np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4), np.int64), np.zeros(0, bool))
     if quads.shape[0] == 0:
         return (*empty, 0, 0)
-    if quads.shape[0] > CHUNK:
-        out = [quadruple_points_between_quads(P0, P1, topo, quads[i : i + CHUNK])
-               for i in range(0, quads.shape[0], CHUNK)]  # fmt: skip
-        return (np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out]),
-                np.concatenate([o[2] for o in out]), np.concatenate([o[3] for o in out]),
-                sum(o[4] for o in out), int(quads.shape[0]))  # fmt: skip
-    return quadruple_points_between_quads(P0, P1, topo, quads)
+    out = [quadruple_points_between_quads(P0, P1, topo, quads[i : i + CHUNK])
+           for i in range(0, quads.shape[0], CHUNK)]  # fmt: skip
+    return (np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out]),
+            np.concatenate([o[2] for o in out]), np.concatenate([o[3] for o in out]),
+            sum(o[4] for o in out), int(quads.shape[0]))  # fmt: skip
+
+
+def _rows(q: np.ndarray) -> np.ndarray:
+    """Rows of an (N, 4) int64 array as one opaque value each, for np.isin."""
+    return np.ascontiguousarray(q, np.int64).view(np.dtype((np.void, 32))).ravel()
+
+
+def refined_interval(P0, P1, topo: MeshTopology, knots: list, seeds: list):
+    """Quadruple points of the motion P0 -> P1 seeded at ``knots`` (sorted s values, 0 and 1
+    included, with their seed triples ``seeds``), then at the midpoint of every piece whose
+    midpoint's triple points find a point the others did not, down to pieces of
+    MIN_REFINE. Returns (s, x, faces, confirmed, flat count, candidate count)."""
+    graph = swept_graph(P0, P1, topo)
+    s, x, fq, conf, flat, cand, tried = quadruple_points_between(
+        P0, P1, topo, np.concatenate(seeds), graph
+    )
+    found = [(s, x, fq, conf)]
+    todo = [(knots[i], knots[i + 1]) for i in range(len(knots) - 1)]
+    while todo:
+        u, v = todo.pop()
+        if v - u <= MIN_REFINE * (1 + 1e-9):
+            continue
+        mid = 0.5 * (u + v)
+        sm = _seed_triples(self_intersections(P0 + (P1 - P0) * mid, topo))
+        quads = seeded_quadruples(sm, P0, P1, topo, graph)
+        quads = quads[~np.isin(_rows(quads), _rows(tried))]
+        tried = np.concatenate([tried, quads])
+        s2, x2, f2, c2, fl2, ca2 = _solve_chunked(P0, P1, topo, quads)
+        flat += fl2
+        cand += ca2
+        known = np.sort(np.concatenate([f[0] for f in found]))
+        pos = np.clip(np.searchsorted(known, s2), 1, max(known.size - 1, 1))
+        near = np.zeros(s2.size, bool)
+        if known.size:
+            near = (
+                np.minimum(
+                    np.abs(known[pos - 1] - s2), np.abs(known[np.minimum(pos, known.size - 1)] - s2)
+                )
+                < SAME_MOMENT
+            )
+        if s2.size:
+            found.append((s2, x2, f2, c2))
+        if np.any(~near):
+            todo += [(u, mid), (mid, v)]
+    return (np.concatenate([f[0] for f in found]), np.concatenate([f[1] for f in found]),
+            np.concatenate([f[2] for f in found]), np.concatenate([f[3] for f in found]),
+            flat, cand)  # fmt: skip
 
 
 def quadruple_points_between_quads(P0, P1, topo: MeshTopology, quads: np.ndarray):
@@ -432,6 +376,17 @@ def _sheet_count(face_ids: set[int], faces: np.ndarray) -> int:
     return len({root(i) for i in range(len(ids))})
 
 
+def _seed_triples(res) -> np.ndarray:
+    """The triangle triples (T, 3) int64 of a frame's triple points, every distinct one: the
+    merge radius gathers the four triple points of four sheets shortly before or after their
+    quadruple point into one point, and seeding from its one listed triple would lose the
+    others (and with them the candidate)."""
+    if res is None:
+        return np.zeros((0, 3), np.int64)
+    sets = getattr(res, "triple_face_sets", None)
+    return np.asarray(res.triple_faces if sets is None else sets, np.int64).reshape(-1, 3)
+
+
 def quadruple_points(
     positions,
     faces,
@@ -478,11 +433,17 @@ def quadruple_points(
     triples = []
     for k in range(n_frames):
         res = frame_intersections.get(k)
-        triples.append(np.zeros((0, 3), np.int64) if res is None else res.triple_faces)
+        triples.append(_seed_triples(res))
         if res is not None and res.triple_detections.size:
-            # detection counts that only k >= 4 sheets through one point explain (several
-            # distinct triple points merged in a crumpled region give other multiples of 3)
-            where = np.flatnonzero(sheets_meeting(res.triple_detections) >= 4)
+            # four or more sheets through one point: detections that agree to rounding in a
+            # number only k >= 4 sheets explain. Distinct triple points that the merge radius
+            # gathered (the four triple points of four sheets shortly before or after their
+            # quadruple point, or passing near each other without one) are not that: at a
+            # frame they are apart, and whether the four sheets meet between frames is what
+            # the interval solve decides
+            same = res.triple_detections if res.triple_coincident is None else (
+                res.triple_coincident)  # fmt: skip
+            where = np.flatnonzero(sheets_meeting(same) >= 4)
             f0 = topo.faces[res.triple_faces[where, 0]]
             size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
             crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
@@ -506,9 +467,14 @@ def quadruple_points(
         pieces = int(min(max(np.ceil(step / MAX_STEP), substeps), MAX_PIECES))
         for j in range(1, pieces):
             Pj = P[k] + (P[k + 1] - P[k]) * (j / pieces)
-            parts_seeds.append(self_intersections(Pj, topo).triple_faces)
-        seeds = np.concatenate(parts_seeds)
-        s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo, seeds)
+            parts_seeds.append(_seed_triples(self_intersections(Pj, topo)))
+        knots = [j / pieces for j in range(pieces + 1)]
+        parts_seeds = [parts_seeds[0], *parts_seeds[2:], parts_seeds[1]]  # in knot order
+        if any(p.size for p in parts_seeds):
+            found = refined_interval(P[k], P[k + 1], topo, knots, parts_seeds)
+        else:
+            found = _solve_chunked(P[k], P[k + 1], topo, np.zeros((0, 4), np.int64))
+        s, x, fq, conf, flat, cand = found
         flat_total += flat
         cand_total += cand
         parts.append((np.full(s.size, k), s, x, fq, conf))
@@ -534,7 +500,7 @@ def quadruple_points(
     same_moment = 0
     if keep.size > 1:
         o = np.lexsort((sk, it))
-        close = (np.diff(it[o]) == 0) & (np.diff(sk[o]) < SAME_MOMENT)
+        close = (np.diff(it[o]) == 0) & (np.diff(sk[o]) < COPY_MOMENT)
         same_moment = int(close.sum())
     if same_moment:
         notes.append(
