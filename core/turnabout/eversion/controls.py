@@ -9,6 +9,10 @@ Stage names (used the same way in the API, the CLI, the docs and the add-on):
 ``calm``    the waves die away, leaving the round sphere turned inside out.
 
 Each stage has a (start, end) window as fractions of the whole motion in [0, 1].
+
+The documented defaults per strip count (depth, windows, frames) are read from the tuned
+table ``tuned_controls.json`` in this package, which ``turnabout tune`` writes
+(docs/sweeps.md, section 3).
 """
 
 from __future__ import annotations
@@ -42,7 +46,7 @@ class ControlError(ValueError):
 
 
 # The strip counts that work: every count from 8 to 16 passes the build gate at every depth
-# of depth_range with the default windows, and has measured frame counts and scan figures
+# of depth_range with its default windows, and has measured frame counts and scan figures
 # (docs/eversion.md). Above 16 the gate refuses the documented depth (64 strips at 0.15:
 # normalised ratio 0.049 against the floor 0.05) and the default mesh and frame count grow
 # past what a workstation holds (64 strips: about 380,000 vertices x 1,800 frames), so

@@ -21,6 +21,7 @@ Reads in order:
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass
 
@@ -379,15 +380,16 @@ def tune_timing(
     for _ in range(restarts):
         x, fx = nelder_mead(lambda v: _penalised(model, grid, v), x, scale, iterations)
         scale *= 0.5
-    best, fbest = x, fx
-    # round to the published digits, keeping the nearest rounding that meets the constraints
+    # round to the published digits: the best of every floor / ceiling combination that
+    # still meets the constraints (the optimum sits on them, so plain rounding may not)
     q = 10.0**WINDOW_DIGITS
-    base = np.round(best * q) / q
-    candidates = [base] + [base + d * np.eye(best.size)[i] / q
-                           for i in range(best.size) for d in (-1, 1)]  # fmt: skip
-    scored = [(_penalised(model, grid, c), k) for k, c in enumerate(candidates)]
-    value, k = min(scored)
-    if not math.isfinite(value):
-        return dict(start), fbest
-    chosen = np.round(candidates[k] * q) / q
-    return _to_timing(chosen), _penalised(model, grid, chosen)
+    lo, hi = np.floor(x * q), np.ceil(x * q)
+    best_value, chosen = math.inf, None
+    for pick in itertools.product((0, 1), repeat=x.size):
+        cand = np.where(np.array(pick) == 1, hi, lo) / q
+        value = _penalised(model, grid, cand)
+        if value < best_value:
+            best_value, chosen = value, cand
+    if chosen is None:
+        return dict(start), fx
+    return _to_timing(chosen), best_value

@@ -38,7 +38,7 @@ from .grid import ScanSpec
 from .tune import REFERENCE_TIMING, TuneResult
 
 TABLE_FORMAT = "turnabout tuned controls, version 1"
-PACE_VERSION = 1  # part of a pace record: a change of the method makes old files stale
+PACE_VERSION = 2  # part of a pace record: a change of the method makes old files stale
 MODEL_SAMPLES = 401  # turns at which the step-rate model samples the shape
 QUICK_FIGURES = (
     "min_ratio", "min_ratio_t", "min_ratio_theta_deg", "min_ratio_lat_deg", "pole_min_ratio",
