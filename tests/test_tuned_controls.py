@@ -248,7 +248,15 @@ def test_the_8_strip_entry_reproduces_its_recorded_quick_scan():
     c = Controls(strips=8, depth=row["depth"], timing={k: tuple(v) for k, v in
                                                        row["timing"].items()})  # fmt: skip
     figs = point_figures(point_record(c, scan_spec("quick")))
-    assert {k: figs[k] for k in row["quick_scan"]} == row["quick_scan"]
+    mine = {k: figs[k] for k in row["quick_scan"]}
+    if np.__version__.startswith("1."):  # the table was written under numpy 1.26: same bits
+        assert mine == row["quick_scan"]
+    else:
+        # numpy 2 rounds some elementary functions differently in the last bit; the
+        # curvature's second differences (step 1e-5) magnify that to about 3e-10 relative
+        assert mine == pytest.approx(row["quick_scan"], rel=1e-8)
+        for k in ("min_ratio_t", "min_ratio_lat_deg", "max_curvature_t", "max_curvature_lat_deg"):
+            assert mine[k] == row["quick_scan"][k]  # the same sample, exactly
 
 
 def test_the_table_records_the_command_that_writes_it():

@@ -127,14 +127,16 @@ def add_control_options(p: argparse.ArgumentParser) -> None:
             help=f"when {STAGE_HELP[stage]}: fractions of the motion in [0, 1] "
             f"(default {_window_default_text(stage)})",
         )
+    frames = [default_frames(n) for n in range(MIN_STRIPS, MAX_STRIPS + 1)]
     g.add_argument(
         "--frames",
         type=int,
         default=None,
-        help=f"length of the motion in frames, >= 2 (default {default_frames(MIN_STRIPS)} "
-        f"for {MIN_STRIPS} strips, {default_frames(MIN_STRIPS) / 24:g} s at 24 fps; more strips "
-        f"need more, up to {default_frames(MAX_STRIPS)} for {MAX_STRIPS}, to keep every vertex "
-        "within one edge length per frame)",
+        help=f"length of the motion in frames, >= 2 (default: the strip count's tuned count, "
+        f"{default_frames(MIN_STRIPS)} for {MIN_STRIPS} strips, "
+        f"{default_frames(MIN_STRIPS) / 24:g} s at 24 fps; {min(frames)}-{max(frames)} for "
+        f"{MIN_STRIPS}-{MAX_STRIPS} strips, {default_frames(MAX_STRIPS)} for {MAX_STRIPS}; "
+        "enough to keep every vertex within one edge length per frame)",
     )
     g.add_argument(
         "--spacing",
