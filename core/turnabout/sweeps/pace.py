@@ -351,8 +351,10 @@ def nelder_mead(fun, x0: np.ndarray, scale: float, iterations: int) -> tuple[np.
         elif fr < values[-2]:
             simplex[-1], values[-1] = xr, fr
         else:
-            xc = centre + 0.5 * (worst - centre) if fr >= values[-1] else centre + 0.5 * (
-                xr - centre
+            xc = (
+                centre + 0.5 * (worst - centre)
+                if fr >= values[-1]
+                else centre + 0.5 * (xr - centre)
             )
             fc = fun(xc)
             if fc < min(fr, values[-1]):

@@ -167,8 +167,9 @@ def entry(result: TuneResult, paced: dict, figures: dict, kept: dict | None) -> 
     found = {
         "depth": result.depth,
         "depths_tried": len(result.tried),
-        "reference_windows": {k: paced["reference"][k] for k in ("frames", "largest_step",
-                                                                 "model_rate")},  # fmt: skip
+        "reference_windows": {
+            k: paced["reference"][k] for k in ("frames", "largest_step", "model_rate")
+        },
         "tuned_windows": paced["tuned"],
         "windows": "tuned" if paced["adopted"] else "reference",
         "frames": choice["frames"],
