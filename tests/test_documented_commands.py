@@ -4,7 +4,7 @@ The ```sh blocks of README.md and every docs/*.md (found afresh each run, so new
 covered without touching this file) are read line by line. Each command runs through
 ``bash -o pipefail`` in a fresh folder per document, in document order (so a command can
 read what an earlier one wrote), with the repository's ``addon/``, ``core/`` and
-``docs/examples/`` copied in. ``turnabout``, ``python`` and ``blender -b -P SCRIPT --`` are
+``docs/examples/`` (and build.py with pyproject.toml) copied in. ``turnabout``, ``python`` and ``blender -b -P SCRIPT --`` are
 small shims onto this interpreter (the bpy module stands in for the Blender program). Each
 must exit 0, or the code its comment documents (``# exit 1``).
 
@@ -157,6 +157,7 @@ def _workspace(tmp_path: Path) -> Path:
         if (REPO / sub).is_dir():
             shutil.copytree(REPO / sub, work / sub, ignore=ignore)
     shutil.copy2(REPO / "build.py", work / "build.py")
+    shutil.copy2(REPO / "pyproject.toml", work / "pyproject.toml")  # build.py reads package-data
     return work
 
 
