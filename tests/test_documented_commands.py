@@ -5,8 +5,9 @@ covered without touching this file) are read line by line. Each command runs thr
 ``bash -o pipefail`` in a fresh folder per document, in document order (so a command can
 read what an earlier one wrote), with the repository's ``addon/``, ``core/``,
 ``docs/examples/``, build.py and pyproject.toml copied in. ``turnabout``, ``python`` and
-``blender -b -P SCRIPT --`` are small shims onto this interpreter (the bpy module stands in for the Blender program). Each
-must exit 0, or the code its comment documents (``# exit 1``).
+``blender -b -P SCRIPT --`` are small shims onto this interpreter (the bpy module stands in
+for the Blender program). Each must exit 0, or the code its comment documents
+(``# exit 1``).
 
 A line that is not one of those commands must be listed in NOT_RUN with the reason; any
 other line fails the test, so nothing is skipped silently.
