@@ -47,13 +47,30 @@ def _record_line(name: str, data: bytes) -> str:
     return f"{name},sha256={digest},{len(data)}"
 
 
+def core_data() -> list[str]:
+    """The core's data files: pyproject's [tool.setuptools.package-data], as paths."""
+    import tomllib
+
+    with open(os.path.join(REPO, "pyproject.toml"), "rb") as fh:
+        table = tomllib.load(fh)["tool"]["setuptools"].get("package-data", {})
+    out = []
+    for package, names in sorted(table.items()):
+        folder = os.path.join(os.path.dirname(CORE), *package.split("."))
+        for name in names:
+            path = os.path.join(folder, name)
+            if not os.path.isfile(path):
+                raise BuildError(f"pyproject.toml package-data names {path!r}, which is missing")
+            out.append(path)
+    return out
+
+
 def build_core_wheel(out_dir: str) -> str:
-    """A pure-Python wheel of core/turnabout (sources only); returns its path."""
+    """A pure-Python wheel of core/turnabout (sources and package data); returns its path."""
     version = core_version()
     dist_info = f"turnabout-{version}.dist-info"
     path = os.path.join(out_dir, f"turnabout-{version}-py3-none-any.whl")
     files: list[tuple[str, bytes]] = []
-    for src in sorted(glob.glob(os.path.join(CORE, "**", "*.py"), recursive=True)):
+    for src in sorted(glob.glob(os.path.join(CORE, "**", "*.py"), recursive=True)) + core_data():
         rel = os.path.relpath(src, os.path.dirname(CORE)).replace(os.sep, "/")
         with open(src, "rb") as fh:
             files.append((rel, fh.read()))

@@ -21,6 +21,7 @@ from bpy.props import (
 )
 
 from turnabout.commands.controls_options import PANEL_LABELS as LABELS
+from turnabout.commands.controls_options import depth_default_text
 from turnabout.eversion import (
     DEFAULT_FRAMES,
     MAX_STRIPS,
@@ -29,6 +30,7 @@ from turnabout.eversion import (
     STAGE_NAMES,
     Controls,
     default_depth,
+    default_frames,
     depth_range,
 )
 from turnabout.eversion.spacing import (
@@ -130,7 +132,7 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
         name=LABELS["depth"],
         description="Corrugation depth as a fraction of the sphere's radius "
         f"({depth_range()[0]:g}-{depth_range()[1]:g}; the documented "
-        f"depth is {default_depth(MIN_STRIPS):g} for 8-9 strips, {default_depth(10):g} above)",
+        f"depth is {depth_default_text()})",
         default=default_depth(MIN_STRIPS),
         min=depth_range()[0],
         max=depth_range()[1],
@@ -140,8 +142,10 @@ class TURNABOUT_PG_settings(bpy.types.PropertyGroup):
     # --- frames and sampling
     frames: IntProperty(
         name=LABELS["frames"],
-        description="Length of the motion in frames (2 or more). 480 (20 s at 24 fps) keeps "
-        "every vertex of 8 strips within one edge length per frame; 16 strips need 672",
+        description=f"Length of the motion in frames (2 or more). {DEFAULT_FRAMES} "
+        f"({DEFAULT_FRAMES / 24:g} s at 24 fps) keeps "
+        f"every vertex of 8 strips within one edge length per frame; 16 strips need "
+        f"{default_frames(MAX_STRIPS)}",
         default=DEFAULT_FRAMES,
         min=2,
         soft_max=2000,

@@ -55,8 +55,10 @@ def test_help_states_the_depth_and_frames_that_really_apply():
     from turnabout.eversion import default_depth, default_frames
 
     depth_help = _options("build")["--depth"][3]
-    assert default_depth(9) == 0.16 and default_depth(10) == 0.15
-    assert "0.16 for 8-9 strips, 0.15 above" in depth_help
+    # the help's runs ("0.16 for 8-9 strips, 0.15 for 10-16 strips") name every count's depth
+    runs = re.findall(r"([0-9.]+) for (\d+)(?:-(\d+))? strips", depth_help)
+    said = {n: float(d) for d, a, b in runs for n in range(int(a), int(b or a) + 1)}
+    assert said == {n: default_depth(n) for n in range(8, 17)}
     frames_help = _options("build")["--frames"][3]
     assert f"{default_frames(8)} for 8 strips" in frames_help
     assert f"{default_frames(16)} for 16" in frames_help

@@ -3,17 +3,19 @@
 The ```sh blocks of README.md and every docs/*.md (found afresh each run, so new pages are
 covered without touching this file) are read line by line. Each command runs through
 ``bash -o pipefail`` in a fresh folder per document, in document order (so a command can
-read what an earlier one wrote), with the repository's ``addon/``, ``core/`` and
-``docs/examples/`` copied in. ``turnabout``, ``python`` and ``blender`` (``-b [FILE]``, ``-o``,
-``-s``, ``-e``, ``-a``, ``-P SCRIPT --``) are small shims onto this interpreter (the bpy module
-stands in for the Blender program). A line may feed values to one of them through
-``printf ... | xargs -P N -I NAME`` (a parallel shell loop), or compare two folders with
-``diff -r``. Each must exit 0, or the code its comment documents (``# exit 1``).
+read what an earlier one wrote), with the repository's ``addon/``, ``core/``,
+``docs/examples/``, build.py and pyproject.toml copied in. ``turnabout``, ``python`` and
+``blender`` (``-b [FILE]``, ``-o``, ``-s``, ``-e``, ``-a``, ``-P SCRIPT --``) are small shims
+onto this interpreter (the bpy module stands in for the Blender program). A line may feed
+values to one of them through ``printf ... | xargs -P N -I NAME`` (a parallel shell loop), or
+compare two folders with ``diff -r``. Each must exit 0, or the code its comment documents
+(``# exit 1``).
 
 A line that is not one of those commands must be listed in NOT_RUN with the reason; any
 other line fails the test, so nothing is skipped silently.
 
-Inherently long commands (the full demo, the full regularity scan) run in a fast form by
+Inherently long commands (the full demo, the full regularity scan, the tuned table's
+regeneration) run in a fast form by
 default: LONG_FORMS appends options that shrink the work (later options win in argparse).
 Set ``TURNABOUT_DOCS_FULL=1`` to run them exactly as written (about ten more minutes).
 """
@@ -49,6 +51,12 @@ LONG_FORMS = {
         1,
     ),
     "turnabout build --scan-only": ("--scan-grid 24 19 6", None),
+    # the shipped table's own command (about 20 minutes): one count, a coarse scan, the
+    # reference windows given
+    "turnabout tune --strips 8:16:9": (
+        "--strips 8 --coarse 3 --rounds 0 --scan-grid 8 31 12 --tuck 0.586,0.97",
+        None,
+    ),
 }
 FULL = os.environ.get("TURNABOUT_DOCS_FULL") == "1"
 
@@ -189,6 +197,7 @@ def _workspace(tmp_path: Path) -> Path:
         if (REPO / sub).is_dir():
             shutil.copytree(REPO / sub, work / sub, ignore=ignore)
     shutil.copy2(REPO / "build.py", work / "build.py")
+    shutil.copy2(REPO / "pyproject.toml", work / "pyproject.toml")  # build.py reads package-data
     return work
 
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -127,12 +128,14 @@ def test_default_build_passes_the_frame_check_at_default_resolution(tmp_path, ca
 
 
 def test_more_strips_get_enough_frames_for_gradual_motion():
-    # 12 strips: a finer default mesh, so more default frames (600); the same criteria hold
+    # 12 strips: a finer default mesh, with its own tuned depth, windows and frames (the
+    # table core/turnabout/eversion/tuned_controls.json); the same criteria hold, and the
+    # checker's largest step is the one the tuner recorded
     from turnabout.check import Thresholds, check_animation
-    from turnabout.eversion import build, default_frames
+    from turnabout.eversion import build, default_frames, default_timing
 
     ctl = Controls(strips=12)
-    assert default_frames(12) > default_frames(8) == DEFAULT_FRAMES
+    assert ctl.timing == default_timing(12)
     ev = build(ctl)
     assert ev.positions.shape[0] == default_frames(12)
     th = Thresholds(area_ratio_warn=0.01, area_ratio_fail=0.001, crease_warn_deg=25.0,
@@ -141,6 +144,9 @@ def test_more_strips_get_enough_frames_for_gradual_motion():
     assert rep.everted and not rep.failing_frames()
     assert max(f.max_step for f in rep.frames) <= 1.0
     assert max(f.max_crease_deg for f in rep.frames) < 30.0
+    table = Path(__file__).resolve().parents[1] / "core/turnabout/eversion/tuned_controls.json"
+    recorded = json.loads(table.read_text(encoding="utf-8"))["strips"]["12"]["largest_step"]
+    assert max(f.max_step for f in rep.frames) == pytest.approx(recorded, abs=1e-9)
 
 
 def test_mid_motion_frames_keep_banchoff_parity_with_their_axis_points():

@@ -299,20 +299,23 @@ def test_without_dask_a_cluster_run_is_refused_with_the_extra_to_install(
 
 
 def test_tune_keeps_the_regular_depth_of_least_curvature_and_reuses_its_points(tmp_path, capsys):
+    # the windows are given (the reference ones), so only the depth is searched; the
+    # frames and the table file: tests/test_tuned_controls.py
     out = tmp_path / "t"
     argv = ["tune", "--strips", "8", "--coarse", "3", "--rounds", "1", *GRID_ARGS,
-            "--out", str(out), "--workers", "2"]  # fmt: skip
+            "--tuck", "0.586,0.97", "--out", str(out), "--workers", "2"]  # fmt: skip
     assert main(argv) == 0
-    table = json.loads((out / "tuned.json").read_text(encoding="utf-8"))
-    best = table["strips"]["8"]
+    first = (out / "tuned.json").read_bytes()
+    best = json.loads(first)["strips"]["8"]
     rows = [json.loads(p.read_text(encoding="utf-8")) for p in (out / "points").glob("*.json")]
     regular = [r for r in rows if r["figures"]["min_ratio"] >= MIN_RATIO]
-    assert best["depth"] == min(regular, key=lambda r: r["figures"]["max_curvature"])[
+    assert best["tuner"]["depth"] == min(regular, key=lambda r: r["figures"]["max_curvature"])[
         "point"]["depth"]  # fmt: skip
-    assert best["points_tried"] == len(rows)
+    assert best["tuner"]["depths_tried"] == len(rows)
     capsys.readouterr()
     assert main(argv) == 0  # again: every point is on disk
     assert "0 computed" in capsys.readouterr().out
+    assert (out / "tuned.json").read_bytes() == first
 
 
 def test_check_refuses_a_bad_scheduler_before_reading_the_animation(tmp_path, capsys):
@@ -339,4 +342,5 @@ def test_tune_over_stage_windows_keeps_the_combination_of_least_curvature(tmp_pa
     winner = min(regular, key=lambda r: r["figures"]["max_curvature"])
     assert (best["depth"], best["timing"]["tuck"]) == (
         winner["point"]["depth"], winner["point"]["timing"]["tuck"])  # fmt: skip
-    assert best["max_curvature"] == winner["figures"]["max_curvature"]
+    assert best["quick_scan"]["max_curvature"] == winner["figures"]["max_curvature"]
+    assert best["tuner"]["tuned_windows"] is None  # windows given: they are not tuned

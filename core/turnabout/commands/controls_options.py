@@ -35,6 +35,7 @@ from ..eversion.controls import (
     Controls,
     default_depth,
     default_frames,
+    default_timing,
     depth_range,
 )
 from ..eversion.spacing import (
@@ -59,20 +60,28 @@ PANEL_LABELS: dict[str, str] = {
 }
 
 
-def _depth_default_text() -> str:
-    """'0.16 for 8-9 strips, 0.15 above' from the core's own table."""
-    counts: dict[float, list[int]] = {}
+def depth_default_text() -> str:
+    """'0.16 for 8-9 strips, 0.15 for 10-16 strips' from the core's own table (runs of
+    consecutive strip counts with the same depth)."""
+    runs: list[tuple[float, int, int]] = []
     for s in range(MIN_STRIPS, MAX_STRIPS + 1):
-        counts.setdefault(default_depth(s), []).append(s)
-    parts = []
-    for i, (d, ss) in enumerate(counts.items()):
-        if i == len(counts) - 1 and i > 0:
-            parts.append(f"{d:g} above")
-        elif ss[0] == ss[-1]:
-            parts.append(f"{d:g} for {ss[0]} strips")
+        d = default_depth(s)
+        if runs and runs[-1][0] == d:
+            runs[-1] = (d, runs[-1][1], s)
         else:
-            parts.append(f"{d:g} for {ss[0]}-{ss[-1]} strips")
-    return ", ".join(parts)
+            runs.append((d, s, s))
+    return ", ".join(f"{d:g} for {a} strips" if a == b else f"{d:g} for {a}-{b} strips"
+                     for d, a, b in runs)  # fmt: skip
+
+
+def _window_default_text(stage: str) -> str:
+    """'0,0.103' when every strip count has the same window, else the 8 strips' one and a
+    pointer to the rest (from the core's tuned table)."""
+    wins = {s: default_timing(s)[stage] for s in range(MIN_STRIPS, MAX_STRIPS + 1)}
+    a, b = wins[MIN_STRIPS]
+    if len(set(wins.values())) == 1:
+        return f"{a:g},{b:g}"
+    return f"{a:g},{b:g} for {MIN_STRIPS} strips; other counts have their own (docs/eversion.md, 8)"
 
 
 def stage_window(text: str) -> tuple[float, float]:
@@ -107,26 +116,27 @@ def add_control_options(p: argparse.ArgumentParser) -> None:
         type=float,
         default=None,
         help=f"corrugation depth as a fraction of the sphere's radius, {lo:g}-{hi:g} "
-        f"(default: {_depth_default_text()})",
+        f"(default: {depth_default_text()})",
     )
     for stage in STAGE_NAMES:
-        a, b = d.timing[stage]
         g.add_argument(
             f"--{stage}",
             type=stage_window,
             default=None,
             metavar="START,END",
             help=f"when {STAGE_HELP[stage]}: fractions of the motion in [0, 1] "
-            f"(default {a:g},{b:g})",
+            f"(default {_window_default_text(stage)})",
         )
+    frames = [default_frames(n) for n in range(MIN_STRIPS, MAX_STRIPS + 1)]
     g.add_argument(
         "--frames",
         type=int,
         default=None,
-        help=f"length of the motion in frames, >= 2 (default {default_frames(MIN_STRIPS)} "
-        f"for {MIN_STRIPS} strips, 20 s at 24 fps; more strips need more, up to "
-        f"{default_frames(MAX_STRIPS)} for {MAX_STRIPS}, to keep every vertex within one edge "
-        "length per frame)",
+        help=f"length of the motion in frames, >= 2 (default: the strip count's tuned count, "
+        f"{default_frames(MIN_STRIPS)} for {MIN_STRIPS} strips, "
+        f"{default_frames(MIN_STRIPS) / 24:g} s at 24 fps; {min(frames)}-{max(frames)} for "
+        f"{MIN_STRIPS}-{MAX_STRIPS} strips, {default_frames(MAX_STRIPS)} for {MAX_STRIPS}; "
+        "enough to keep every vertex within one edge length per frame)",
     )
     g.add_argument(
         "--spacing",
@@ -176,11 +186,10 @@ def read_controls(args: argparse.Namespace) -> ControlChoice:
     Checks every value that can be checked without the regularity scan (strips, depth,
     windows, frames, spacing, lon and lat), so a refusal comes before any work.
     """
-    timing = dict(Controls().timing)
-    for stage in STAGE_NAMES:
-        w = getattr(args, stage, None)
-        if w is not None:
-            timing[stage] = w
+    given = {s: getattr(args, s) for s in STAGE_NAMES if getattr(args, s, None) is not None}
+    # windows not given are the chosen strip count's defaults (Controls(strips=...) checks
+    # the count first, so a bad --strips is named before any window)
+    timing = {**Controls(strips=args.strips).timing, **given} if given else None
     controls = Controls(strips=args.strips, depth=args.depth, timing=timing)
     frames = args.frames
     if frames is not None and frames < 2:

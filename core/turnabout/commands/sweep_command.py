@@ -3,14 +3,15 @@
 ``sweep`` scans every point of a grid (or of a CSV table) and writes ``sweep.csv``,
 ``sweep.json`` and, with ``--plot``, ``regular.png`` and ``curvature.png`` into ``--out``;
 ``tune`` searches each strip count's depth for the smallest peak curvature that stays
-regular and writes the tuned table. Both run on all local cores by default, on a Dask
-cluster with ``--scheduler``, and resume from the per-point files already in ``--out``.
+regular, then the windows and frames, and writes the tuned table (the format of the file
+the controls' defaults come from, eversion/tuned_controls.json). Both run on all local
+cores by default, on a Dask cluster with ``--scheduler``, and resume from the per-point
+files already in ``--out``.
 """
 
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
@@ -20,6 +21,7 @@ from ..eversion.regularity import MIN_RATIO, QUICK_GRID
 from ..output import OutputError, atomic_write_bytes, check_output_file, check_output_folder
 from ..progress import Cancelled, ProgressBar
 from ..sweeps import grid as G
+from ..sweeps.pace import FPS, STEP_LIMIT
 
 SCAN_HELP = (
     f"'quick': one strip period on the build's fast grid ({QUICK_GRID[0]} x {QUICK_GRID[1]}, "
@@ -85,7 +87,8 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     for stage in STAGE_NAMES:
         g.add_argument(
             f"--{stage}", default=None, metavar="START,END[/START,END...]",
-            help=f"windows of when {STAGE_HELP[stage]} (default: the default window)",
+            help=f"windows of when {STAGE_HELP[stage]} (default: each strip count's "
+            "documented window)",
         )  # fmt: skip
     g.add_argument(
         "--table", type=Path, default=None, metavar="FILE.csv",
@@ -108,22 +111,28 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
 def _add_tune(sub, name: str) -> argparse.ArgumentParser:
     p = sub.add_parser(
         name,
-        help="search the depth with the smallest peak curvature that stays regular",
-        description=f"For each strip count, sweep the depth over its allowed range, keep the "
+        help="tune each strip count's depth, windows and frames; write the tuned table",
+        description=f"For each strip count: sweep the depth over its allowed range, keep the "
         f"regular point (min ratio >= {MIN_RATIO:g}) with the smallest peak curvature x "
-        "radius, and sweep again between its neighbours (--rounds times); with lists of "
-        "stage windows, for each combination, keeping the best. Writes the tuned table "
-        "(JSON). Exit 1 when a strip count has no regular depth.",
+        "radius, and sweep again between its neighbours (--rounds times); then choose the "
+        "windows that need the fewest frames (a step-rate model of the default mesh, "
+        "optimised, then checked on the real frames; adopted only when they save a whole "
+        f"second) and the frames: the smallest multiple of {FPS} whose largest move per frame "
+        f"is at most {STEP_LIMIT:g} local edge lengths. With lists of stage windows the "
+        "windows are not tuned: the depth is tuned for each combination and the best kept. "
+        "Writes the tuned table (JSON; the format of the file the controls' defaults come "
+        "from). Exit 1 when a strip count has no regular depth.",
     )
     p.add_argument(
         "--strips", default=str(MIN_STRIPS), metavar="LIST",
-        help=f"strip counts, integers {MIN_STRIPS}-{MAX_STRIPS} (default {MIN_STRIPS})",
+        help=f"strip counts, integers {MIN_STRIPS}-{MAX_STRIPS}, e.g. 8:16:9 for all "
+        f"(default {MIN_STRIPS})",
     )  # fmt: skip
     for stage in STAGE_NAMES:
         p.add_argument(f"--{stage}", default=None, metavar="START,END[/START,END...]",
                        help=f"windows of when {STAGE_HELP[stage]} to try; the depth is "
-                       "tuned for each combination and the best kept (default: the "
-                       "default window)")  # fmt: skip
+                       "tuned for each combination and the best kept, and the windows are "
+                       "not tuned (default: the reference window)")  # fmt: skip
     p.add_argument("--coarse", type=int, default=7,
                    help="depths per round, 3-50 (default 7)")  # fmt: skip
     p.add_argument("--rounds", type=int, default=2,
@@ -135,6 +144,12 @@ def _add_tune(sub, name: str) -> argparse.ArgumentParser:
         metavar="FILE.json",
         help="the tuned table to write (default OUT/tuned.json)",
     )
+    p.add_argument(
+        "--keep", default=None, metavar="LIST",
+        help="strip counts (among --strips) whose depth, windows and frames are kept from the "
+        "existing --tuned file; their figures are measured again and the tuner's own "
+        "choice is recorded beside them",
+    )  # fmt: skip
     _run_options(p, "tune-results")
     p.set_defaults(run=run_tune_command)
     return p
@@ -234,7 +249,30 @@ def run_sweep_command(args) -> int:
     return _execute(args, "sweep", work)
 
 
+def _tune_command_text(args) -> str:
+    """The command as the table records it: every option that shapes the table."""
+    parts = ["turnabout tune", f"--strips {args.strips}"]
+    if args.keep:
+        parts.append(f"--keep {args.keep}")
+    parts += [f"--{s} {getattr(args, s)}" for s in STAGE_NAMES if getattr(args, s) is not None]
+    if args.coarse != 7:
+        parts.append(f"--coarse {args.coarse}")
+    if args.rounds != 2:
+        parts.append(f"--rounds {args.rounds}")
+    if args.scan != "quick":
+        parts.append(f"--scan {args.scan}")
+    if args.scan_grid is not None:
+        parts.append("--scan-grid " + " ".join(map(str, args.scan_grid)))
+    if args.tuned is not None:
+        parts.append(f"--tuned {args.tuned.as_posix()}")
+    parts.append(f"--out {args.out.as_posix()}")
+    return " ".join(parts)
+
+
 def run_tune_command(args) -> int:
+    from ..eversion.controls import TunedTableError
+    from ..sweeps import tuned_table as T
+
     try:
         strips = G.parse_values("--strips", args.strips, integer=True)
         windows = _windows(args)
@@ -243,30 +281,60 @@ def run_tune_command(args) -> int:
             raise G.SweepInputError(f"--coarse: must be from 3 to 50, got {args.coarse}")
         if not 0 <= args.rounds <= 10:
             raise G.SweepInputError(f"--rounds: must be from 0 to 10, got {args.rounds}")
+        keep = G.parse_values("--keep", args.keep, integer=True) if args.keep else []
+        if set(keep) - set(strips):
+            raise G.SweepInputError(
+                f"--keep: {', '.join(map(str, sorted(set(keep) - set(strips))))} not among "
+                "--strips; keep only counts that are tuned"
+            )
+        if keep and args.tuned is None:
+            raise G.SweepInputError("--keep: keeps entries of the --tuned file; give --tuned")
         spec = _check_run_options(args)
         tuned = args.tuned or args.out / "tuned.json"
         if args.tuned is not None:
             check_output_file(tuned, "--tuned")
-    except (G.SweepInputError, OutputError, cluster.SchedulerError) as exc:
+        kept = T.read_kept(tuned, keep)
+    except (G.SweepInputError, OutputError, cluster.SchedulerError, TunedTableError) as exc:
         print(f"turnabout tune: {exc}", file=sys.stderr)
         return 2
-    from ..sweeps.tune import tune_windows, tuned_table
+    from ..sweeps.run import run_sweep
+    from ..sweeps.tune import tune_windows
 
     def work(opts):
         results = [tune_windows(n, spec, args.out, windows, coarse=args.coarse,
                                 rounds=args.rounds, **opts) for n in strips]  # fmt: skip
+        ok = [r for r in results if r.depth is not None]
+        records = []
+        for r in ok:
+            k = kept.get(r.strips)
+            if k is None:
+                records.append(T.pace_record(r.strips, r.depth, r.timing, not windows))
+            else:
+                records.append(T.pace_record(r.strips, k["depth"], k["timing"], not windows,
+                                             frames_at=k["frames"]))  # fmt: skip
+        paced = T.run_pace(records, args.out, **opts)
+        chosen = [T.chosen_controls(r, p, kept.get(r.strips))
+                  for r, p in zip(ok, paced, strict=True)]  # fmt: skip
+        figures = run_sweep(chosen, spec, args.out, **opts).figures
+        entries: dict = {r.strips: None for r in results}
+        for r, p, f in zip(ok, paced, figures, strict=True):
+            entries[r.strips] = T.entry(r, p, f, kept.get(r.strips))
         args.out.mkdir(exist_ok=True)
-        data = json.dumps(tuned_table(results, spec), indent=1, sort_keys=True) + "\n"
-        atomic_write_bytes(tuned, data.encode())
+        atomic_write_bytes(tuned, T.table_bytes(T.table(entries, spec, _tune_command_text(args))))
         if not args.quiet:
             for r in results:
-                if r.depth is None:
+                e = entries[r.strips]
+                if e is None:
                     print(f"{r.strips} strips: no regular depth among {len(r.tried)} tried")
-                else:
-                    print(f"{r.strips} strips: depth {r.depth:g}, min ratio "
-                          f"{r.figures['min_ratio']:.4f}, peak curvature x R "
-                          f"{r.figures['max_curvature']:.1f} ({len(r.tried)} depths tried, "
-                          f"{r.computed} computed)")  # fmt: skip
+                    continue
+                t = e["tuner"]
+                q = e["quick_scan"]
+                saved = t["reference_windows"]["frames"] - t["frames"]
+                print(f"{r.strips} strips: depth {e['depth']:g}, min ratio {q['min_ratio']:.4f}, "
+                      f"peak curvature x R {q['max_curvature']:.1f}, {e['frames']} frames "
+                      f"(largest step {e['largest_step']:.4f}; {t['windows']} windows, "
+                      f"{saved} frames saved{', kept from the table' if e['kept'] else ''}; "
+                      f"{t['depths_tried']} depths tried, {r.computed} computed)")  # fmt: skip
             print(f"wrote {tuned}")
         return 1 if any(r.depth is None for r in results) else 0
 

@@ -18,6 +18,7 @@ from .controls import (
     Controls,
     default_depth,
     default_frames,
+    default_timing,
     depth_range,
 )
 from .frames import Eversion, build, evaluate
@@ -36,6 +37,7 @@ __all__ = [
     "build",
     "default_depth",
     "default_frames",
+    "default_timing",
     "mesh_for",
     "depth_range",
     "evaluate",

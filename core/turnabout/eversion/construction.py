@@ -366,10 +366,17 @@ class FrameEvaluator:
 
     def __call__(self, t: float, out: np.ndarray | None = None) -> np.ndarray:
         """Positions at time t into ``out`` ((V, 3), any float dtype; float64 if None)."""
+        return self.at_state(stage_state(self.controls, t), out)
+
+    def at_state(self, state: StageState, out: np.ndarray | None = None) -> np.ndarray:
+        """Positions at a stage state (turn, waves) into ``out`` ((V, 3), as for a time).
+
+        The shape depends on the time only through this state; the windows reparametrise
+        time (the step-rate model of ``sweeps.pace`` samples the shape by state).
+        """
         m = self.mesh
         if out is None:
             out = np.empty((m.n_vertices, 3))
-        state = stage_state(self.controls, t)
         g, axis, side, d = wave_frame(self._lat, state, self.controls.wave_depth)
         ds = d[:, None] * side
         da = d[:, None] * axis

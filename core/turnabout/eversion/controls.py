@@ -9,12 +9,18 @@ Stage names (used the same way in the API, the CLI, the docs and the add-on):
 ``calm``    the waves die away, leaving the round sphere turned inside out.
 
 Each stage has a (start, end) window as fractions of the whole motion in [0, 1].
+
+The documented defaults per strip count (depth, windows, frames) are read from the tuned
+table ``tuned_controls.json`` in this package, which ``turnabout tune`` writes
+(docs/sweeps.md, section 3).
 """
 
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import dataclass, field, fields, replace
+from importlib import resources
 
 STAGE_NAMES: tuple[str, ...] = ("ripple", "swap", "twist", "tuck", "calm")
 
@@ -39,28 +45,25 @@ class ControlError(ValueError):
         self.message = message
 
 
-def _default_timing() -> dict[str, tuple[float, float]]:
-    # Chosen so that no vertex of the default mesh moves more than about 0.95 of its local
-    # edge length per frame at DEFAULT_FRAMES (docs/eversion.md, section 8): the turn is
-    # slowest where the bend-adaptive mesh is finest and the motion fastest. The waves are
-    # at full depth before the turn passes 0.005 and until it passes 0.995.
-    return {
-        "ripple": (0.0, 0.103),
-        "swap": (0.052, 0.51),
-        "twist": (0.315, 0.752),
-        "tuck": (0.586, 0.97),
-        "calm": (0.92, 1.0),
-    }
-
-
 # The strip counts that work: every count from 8 to 16 passes the build gate at every depth
-# of depth_range with the default windows, and has measured frame counts and scan figures
+# of depth_range with its default windows, and has measured frame counts and scan figures
 # (docs/eversion.md). Above 16 the gate refuses the documented depth (64 strips at 0.15:
 # normalised ratio 0.049 against the floor 0.05) and the default mesh and frame count grow
 # past what a workstation holds (64 strips: about 380,000 vertices x 1,800 frames), so
 # counts above 16 are refused rather than documented as working.
 MIN_STRIPS = 8
 MAX_STRIPS = 16
+
+
+def _check_strips(s) -> None:
+    if isinstance(s, bool) or not isinstance(s, int):
+        if isinstance(s, float) and math.isfinite(s) and s.is_integer():
+            raise ControlError("strips", f"must be an integer, got the float {s!r}")
+        raise ControlError(
+            "strips", f"must be an integer from {MIN_STRIPS} to {MAX_STRIPS}, got {s!r}"
+        )
+    if not MIN_STRIPS <= s <= MAX_STRIPS:
+        raise ControlError("strips", f"must be from {MIN_STRIPS} to {MAX_STRIPS}, got {s}")
 
 
 @dataclass(frozen=True)
@@ -70,14 +73,23 @@ class Controls:
     strips : number of guide strips (n-fold symmetry about the vertical axis), integer >= MIN_STRIPS
     depth : corrugation depth as a fraction of the sphere's radius (in :func:`depth_range`);
         ``None`` picks the documented depth for the strip count
-    timing : stage name -> (start, end) fractions of the motion
+    timing : stage name -> (start, end) fractions of the motion; ``None`` picks the
+        documented windows for the strip count (:func:`default_timing`), resolved here, so
+        ``controls.timing`` is always a dict. :meth:`with_changes` resolves defaulted
+        windows again for a new strip count.
     """
 
     strips: int = MIN_STRIPS
     depth: float | None = None
-    timing: dict[str, tuple[float, float]] = field(default_factory=_default_timing)
+    timing: dict[str, tuple[float, float]] | None = None
+    # the windows were defaulted (timing=None): they follow the strip count
+    timing_is_default: bool = field(default=False, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
+        if self.timing is None:
+            _check_strips(self.strips)
+            object.__setattr__(self, "timing", default_timing(self.strips))
+            object.__setattr__(self, "timing_is_default", True)
         validate(self)
 
     @property
@@ -85,43 +97,16 @@ class Controls:
         return default_depth(self.strips) if self.depth is None else float(self.depth)
 
     def with_changes(self, **changes) -> Controls:
+        """A copy with some controls changed; defaulted windows follow a new strip count."""
+        if self.timing_is_default and "timing" not in changes:
+            changes["timing"] = None
         return replace(self, **changes)
 
     def as_dict(self) -> dict:
-        out = {f.name: getattr(self, f.name) for f in fields(self)}
+        out = {f.name: getattr(self, f.name) for f in fields(self) if f.init}
         out["depth"] = self.wave_depth
         out["timing"] = {k: list(v) for k, v in self.timing.items()}
         return out
-
-
-# Documented depth per strip count, from coarse scans of ratio and curvature over depths
-# 0.13-0.18 (docs/eversion.md, section 5): the shallowest depth whose normalised ratio keeps
-# a margin of about 0.08 is the smoothest, since the bend comes from waves that barely
-# dominate.
-_DEPTHS = {8: 0.16, 9: 0.16}
-
-
-def default_depth(strips: int) -> float:
-    """The documented corrugation depth for a strip count (fraction of the radius)."""
-    return _DEPTHS.get(strips, 0.15)
-
-
-# Frames per strip count that keep every vertex of the default mesh within 0.95 of its
-# local edge length per frame with the default windows (docs/eversion.md, section 8): more
-# strips make the bend-adaptive mesh finer. Whole seconds at 24 fps. Measured for every
-# allowed count (8-16).
-_FRAMES = {8: 480, 9: 528, 10: 552, 11: 576, 12: 600, 13: 600, 14: 624, 15: 648, 16: 672}
-
-
-def default_frames(strips: int) -> int:
-    """The documented frame count for a strip count (default timing and mesh)."""
-    if strips not in _FRAMES:
-        raise ControlError("strips", f"must be from {MIN_STRIPS} to {MAX_STRIPS}, got {strips}")
-    return _FRAMES[strips]
-
-
-# Frames of a default build of the default 8 strips: 20 s at 24 frames per second.
-DEFAULT_FRAMES = default_frames(MIN_STRIPS)
 
 
 def depth_range() -> tuple[float, float]:
@@ -146,15 +131,8 @@ def _finite(option: str, value) -> float:
 
 def validate(c: Controls) -> None:
     """Raise :class:`ControlError` naming the first bad control and its allowed range."""
+    _check_strips(c.strips)
     s = c.strips
-    if isinstance(s, bool) or not isinstance(s, int):
-        if isinstance(s, float) and math.isfinite(s) and s.is_integer():
-            raise ControlError("strips", f"must be an integer, got the float {s!r}")
-        raise ControlError(
-            "strips", f"must be an integer from {MIN_STRIPS} to {MAX_STRIPS}, got {s!r}"
-        )
-    if not MIN_STRIPS <= s <= MAX_STRIPS:
-        raise ControlError("strips", f"must be from {MIN_STRIPS} to {MAX_STRIPS}, got {s}")
     if c.depth is not None:
         d = _finite("depth", c.depth)
         lo, hi = depth_range()
@@ -186,3 +164,108 @@ def validate(c: Controls) -> None:
                 f"after a stage spanning ({prev_start:g}, {prev_end:g})",
             )
         prev_start, prev_end = a, b
+
+
+# --- the tuned table: documented depth, windows and frames per strip count ----------------
+# tuned_controls.json (in this package) is written by `turnabout tune` (its "command" field
+# says how; docs/sweeps.md, section 3): per strip count the depth with the smallest peak
+# curvature that stays regular, the windows that need the fewest frames, and the frames
+# (whole seconds at 24 fps) that keep every vertex of the default mesh within 0.95 of its
+# local edge length per frame (docs/eversion.md, sections 5, 6 and 8).
+TUNED_FILE = "tuned_controls.json"
+MAX_TUNED_BYTES = 1_000_000
+
+
+class TunedTableError(ValueError):
+    """The tuned table cannot be used; the message names the file and the entry."""
+
+
+@dataclass(frozen=True)
+class TunedEntry:
+    """One strip count's documented controls: depth, windows (stage -> (start, end)), frames."""
+
+    depth: float
+    timing: dict[str, tuple[float, float]]
+    frames: int
+
+
+def parse_tuned_table(text: str, source: str = TUNED_FILE) -> dict[int, TunedEntry]:
+    """The entries of a tuned table's JSON text, every strip count MIN_STRIPS-MAX_STRIPS
+    present and valid; raises :class:`TunedTableError` naming ``source`` and the entry."""
+    if len(text) > MAX_TUNED_BYTES:
+        raise TunedTableError(f"{source}: {len(text)} characters; at most {MAX_TUNED_BYTES}")
+    try:
+        data = json.loads(text)
+    except ValueError as exc:
+        raise TunedTableError(f"{source}: not JSON ({exc})") from None
+    table = data.get("strips") if isinstance(data, dict) else None
+    if not isinstance(table, dict):
+        raise TunedTableError(f"{source}: needs an object 'strips' (strip count -> entry)")
+    want = [str(n) for n in range(MIN_STRIPS, MAX_STRIPS + 1)]
+    if sorted(table, key=lambda k: (len(k), k)) != want:
+        raise TunedTableError(
+            f"{source}: 'strips' must hold exactly the counts {MIN_STRIPS}-{MAX_STRIPS}, "
+            f"got {', '.join(sorted(table)) or 'none'}"
+        )
+    out: dict[int, TunedEntry] = {}
+    for key in want:
+        where = f"{source}: strips {key}"
+        e = table[key]
+        if not isinstance(e, dict) or not {"depth", "timing", "frames"} <= set(e):
+            raise TunedTableError(f"{where}: needs 'depth', 'timing' and 'frames'")
+        frames = e["frames"]
+        if isinstance(frames, bool) or not isinstance(frames, int) or frames < 2:
+            raise TunedTableError(f"{where}: 'frames' must be an integer >= 2, got {frames!r}")
+        depth, timing = e["depth"], e["timing"]
+        if isinstance(depth, bool) or not isinstance(depth, (int, float)):
+            raise TunedTableError(f"{where}: 'depth' must be a number, got {depth!r}")
+        if not isinstance(timing, dict) or not all(
+            isinstance(w, list) and len(w) == 2 and all(
+                isinstance(v, (int, float)) and not isinstance(v, bool) for v in w)
+            for w in timing.values()
+        ):  # fmt: skip
+            raise TunedTableError(f"{where}: 'timing' must map stage names to [start, end]")
+        order = [*(k for k in STAGE_NAMES if k in timing), *(k for k in timing if k not in
+                                                               STAGE_NAMES)]  # fmt: skip
+        windows = {k: (float(timing[k][0]), float(timing[k][1])) for k in order}
+        try:
+            Controls(strips=int(key), depth=float(depth), timing=windows)
+        except ControlError as exc:
+            raise TunedTableError(f"{where}: {exc}") from None
+        out[int(key)] = TunedEntry(float(depth), windows, frames)
+    return out
+
+
+_TUNED: dict[int, TunedEntry] = {}
+
+
+def tuned_entries() -> dict[int, TunedEntry]:
+    """The shipped tuned table (read and validated once)."""
+    if not _TUNED:
+        text = resources.files(__package__).joinpath(TUNED_FILE).read_text(encoding="utf-8")
+        _TUNED.update(parse_tuned_table(text, f"turnabout/eversion/{TUNED_FILE}"))
+    return _TUNED
+
+
+def _entry(strips: int) -> TunedEntry:
+    _check_strips(strips)
+    return tuned_entries()[strips]
+
+
+def default_depth(strips: int) -> float:
+    """The documented corrugation depth for a strip count (fraction of the radius)."""
+    return _entry(strips).depth
+
+
+def default_timing(strips: int) -> dict[str, tuple[float, float]]:
+    """The documented stage windows for a strip count: stage -> (start, end), a new dict."""
+    return dict(_entry(strips).timing)
+
+
+def default_frames(strips: int) -> int:
+    """The documented frame count for a strip count (its default windows and mesh)."""
+    return _entry(strips).frames
+
+
+# Frames of a default build of the default 8 strips: 20 s at 24 frames per second.
+DEFAULT_FRAMES = default_frames(MIN_STRIPS)

@@ -280,10 +280,11 @@ def require_regular(controls: Controls, progress: ProgressFn = no_progress) -> R
 
 def controls_range_text(controls: Controls) -> tuple[str, str]:
     """What the gate is known to pass, for the strip count given: (strips, depth and timing)."""
-    from .controls import MAX_STRIPS, MIN_STRIPS, _default_timing, depth_range
+    from .controls import MAX_STRIPS, MIN_STRIPS, default_timing, depth_range
 
     lo, hi = depth_range()
-    custom = [n for n, w in controls.timing.items() if tuple(w) != _default_timing()[n]]
+    defaults = default_timing(controls.strips)
+    custom = [n for n, w in controls.timing.items() if tuple(w) != tuple(defaults[n])]
     timing = (
         f"with the default windows (these controls change {', '.join(custom)})"
         if custom

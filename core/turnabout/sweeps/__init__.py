@@ -2,8 +2,10 @@
 
 Reads in order: grid (the points and their keys) -> run (one scan per point, on a local
 pool or a Dask cluster; the results folder) -> plot (PNG maps over strips x depth) -> tune
-(the depth with the smallest peak curvature that stays regular). Depends on eversion/ and
-the shared output and cluster modules; nothing below depends on it.
+(the depth with the smallest peak curvature that stays regular) -> pace (the frames a
+timing needs, and the windows that need the fewest) -> tuned_table (the file of documented
+defaults the eversion reads). Depends on eversion/ and the shared output and cluster
+modules; nothing below depends on it.
 """
 
 from .grid import (
@@ -18,7 +20,7 @@ from .grid import (
     scan_spec,
 )
 from .run import SweepResult, point_figures, run_sweep, table_csv, table_json, write_tables
-from .tune import TuneResult, tune_depth, tuned_table
+from .tune import TuneResult, tune_depth
 
 __all__ = [
     "SCAN_KINDS",
@@ -37,6 +39,5 @@ __all__ = [
     "table_csv",
     "table_json",
     "tune_depth",
-    "tuned_table",
     "write_tables",
 ]

@@ -138,9 +138,9 @@ def parse_windows(option: str, text: str) -> list[tuple[float, float]]:
 
 
 def _controls(strips, depth, windows: dict, where: str) -> Controls:
-    timing = dict(Controls().timing)
-    timing.update(windows)
+    """A point; windows not given are the strip count's defaults."""
     try:
+        timing = {**Controls(strips=strips).timing, **windows} if windows else None
         return Controls(strips=strips, depth=depth, timing=timing)
     except ControlError as exc:
         opt = exc.option.split()[0]

@@ -1,6 +1,7 @@
 """Auto-tune: the depth that minimises the peak curvature while the ratio stays regular.
 
-For one strip count (the other controls fixed), :func:`tune_depth` sweeps ``coarse`` depths
+For one strip count (the windows fixed: the reference windows of :mod:`.pace` unless
+given), :func:`tune_depth` sweeps ``coarse`` depths
 evenly over :func:`~turnabout.eversion.depth_range`, keeps the regular point (ratio at least
 the floor) with the smallest peak curvature x radius, and sweeps again between that
 point's neighbours, ``rounds`` times (not when the best is an end of the allowed range:
@@ -21,6 +22,7 @@ import numpy as np
 from ..eversion.controls import Controls, depth_range
 from ..eversion.regularity import MIN_RATIO
 from .grid import ScanSpec
+from .pace import REFERENCE_TIMING
 from .run import run_sweep
 
 DEPTH_DIGITS = 6  # depths are rounded to a micro-radius, so a depth's key is stable
@@ -55,7 +57,7 @@ def tune_depth(
 ) -> TuneResult:
     """Search depth for ``strips`` (see the module's docstring); ``run_options`` go to
     :func:`~turnabout.sweeps.run.run_sweep` (workers, client, retries, progress)."""
-    base = Controls(strips=strips, timing=dict(timing or Controls().timing))
+    base = Controls(strips=strips, timing=dict(timing or REFERENCE_TIMING))
     lo, hi = depth_range()
     tried: dict[float, dict] = {}
     computed = 0
@@ -97,7 +99,7 @@ def tune_windows(
     best: TuneResult | None = None
     tried, computed = [], 0
     for combo in itertools.product(*(windows[s] for s in names)):
-        timing = {**Controls().timing, **dict(zip(names, combo, strict=True))}
+        timing = {**REFERENCE_TIMING, **dict(zip(names, combo, strict=True))}
         r = tune_depth(strips, spec, folder, timing=timing, **options)
         tried += r.tried
         computed += r.computed
@@ -109,24 +111,3 @@ def tune_windows(
         return TuneResult(strips, None, None, tried, computed, None)
     best.tried, best.computed = tried, computed
     return best
-
-
-def tuned_table(results: list[TuneResult], spec: ScanSpec) -> dict:
-    """The tuned depths as a JSON-ready table: strips -> depth and its figures."""
-    return {
-        "scan": spec.as_dict(),
-        "min_ratio_floor": MIN_RATIO,
-        "objective": "smallest peak curvature x radius with min ratio >= floor",
-        "strips": {
-            str(r.strips): None
-            if r.depth is None
-            else {
-                "depth": r.depth,
-                "min_ratio": r.figures["min_ratio"],
-                "max_curvature": r.figures["max_curvature"],
-                "points_tried": len(r.tried),
-                "timing": {k: list(v) for k, v in r.timing.items()},
-            }
-            for r in results
-        },
-    }
