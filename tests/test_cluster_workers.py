@@ -29,6 +29,16 @@ def test_local_workers_keep_the_adaptive_malloc_and_the_thread_caps():
         assert env["OMP_NUM_THREADS"] == "1"
 
 
+def test_a_cluster_started_with_dasks_defaults_before_does_not_leak_the_variable(monkeypatch):
+    # Dask's nanny writes its worker settings into the starting process's os.environ
+    # (MALLOC_TRIM_THRESHOLD_=65536 by default), where later workers would inherit them
+    monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", "65536")
+    with cluster.dask_client("local:1") as client:
+        envs = client.run(_worker_environment)
+    assert [e["MALLOC_TRIM_THRESHOLD_"] for e in envs.values()] == [None]
+    assert os.environ["MALLOC_TRIM_THRESHOLD_"] == "65536"  # the process's own, put back
+
+
 def test_the_setting_is_restored_after_the_cluster_stops():
     import dask
 
@@ -54,7 +64,10 @@ def test_the_documented_worker_configuration_unsets_the_variable(tmp_path):
         "        distributed.Client(c) as cl:\n"
         "    print(list(cl.run(lambda: os.environ.get('MALLOC_TRIM_THRESHOLD_')).values()))\n"
     )
-    env = {k: v for k, v in os.environ.items() if not k.startswith("DASK_")}
+    # a fresh worker machine's shell: no Dask settings, and not the variable itself (an
+    # earlier Dask cluster in this test process wrote it into os.environ)
+    env = {k: v for k, v in os.environ.items()
+           if not k.startswith("DASK_") and k != "MALLOC_TRIM_THRESHOLD_"}  # fmt: skip
     run = lambda e: subprocess.run(  # noqa: E731
         [sys.executable, "-c", code], env=e, capture_output=True, text=True, timeout=120
     ).stdout.strip()

@@ -91,9 +91,19 @@ def local_worker_environment():
     """
     import dask
 
-    # None unsets a variable of that setting (dask.distributed's nanny documents it).
-    with dask.config.set({"distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None}):
-        yield
+    # None unsets a variable of that setting (dask.distributed's nanny documents it). The
+    # nanny also copies its settings into this process's own environment before it spawns
+    # a worker, where the next cluster's workers inherit them: so the variable is taken out
+    # of os.environ for the block too, and put back as it was after.
+    name = "MALLOC_TRIM_THRESHOLD_"
+    before = os.environ.pop(name, None)
+    try:
+        with dask.config.set({f"distributed.nanny.pre-spawn-environ.{name}": None}):
+            yield
+    finally:
+        os.environ.pop(name, None)
+        if before is not None:
+            os.environ[name] = before
 
 
 @contextlib.contextmanager
