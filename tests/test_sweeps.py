@@ -104,6 +104,25 @@ def test_a_points_figures_are_the_scans_figures_at_that_grid():
     assert figs["max_curvature_lat_deg"] == np.degrees(rep.max_curvature_at[2])
     assert figs["verdict"] == ("regular" if rep.min_ratio >= MIN_RATIO else "fails")
     assert figs["default_frames"] == 480
+    assert figs["frames_needed"] is None and figs["frames_needed_step"] is None  # not asked
+
+
+def test_frames_needed_is_the_fewest_whole_seconds_within_one_edge_length_per_frame():
+    # The checker's step criterion (one local edge length per frame, common practice for
+    # motion that reads as continuous): the point's frames F keep the largest step of its own
+    # default mesh at or below 1, and one second fewer does not.
+    from turnabout.eversion import mesh_for
+    from turnabout.sweeps.pace import FPS, largest_step
+
+    c = Controls(strips=8, depth=0.15)
+    spec = scan_spec("quick", GRID, frames_needed=True)
+    assert point_key(c, spec) != point_key(c, SPEC)  # a different point file
+    figs = point_figures(point_record(c, spec))
+    f = figs["frames_needed"]
+    assert f % FPS == 0
+    mesh = mesh_for(c)
+    assert figs["frames_needed_step"] == largest_step(c, f, mesh).largest <= 1.0
+    assert largest_step(c, f - FPS, mesh).largest > 1.0
 
 
 # --- runners: local pool, Dask, resume -----------------------------------------------------

@@ -97,6 +97,12 @@ def add_parser(sub, name: str) -> argparse.ArgumentParser:
     )  # fmt: skip
     _run_options(p, "sweep-results")
     p.add_argument(
+        "--frames-needed", action="store_true",
+        help="also measure the frames each regular point's default mesh needs so that no "
+        "vertex moves more than one local edge length per frame (bakes the point's frames: "
+        "some seconds each)",
+    )  # fmt: skip
+    p.add_argument(
         "--large-grid", action="store_true",
         help=f"confirm a grid of more than {G.LARGE_GRID:,} points (refused without it)",
     )  # fmt: skip
@@ -158,7 +164,7 @@ def _add_tune(sub, name: str) -> argparse.ArgumentParser:
 def _check_run_options(args) -> G.ScanSpec:
     """The scan, every run option checked; raises SweepInputError, OutputError or
     SchedulerError naming the option."""
-    spec = G.scan_spec(args.scan, args.scan_grid)
+    spec = G.scan_spec(args.scan, args.scan_grid, getattr(args, "frames_needed", False))
     check_output_folder(args.out, "--out")
     if args.workers is not None:
         cluster.check_workers(args.workers)

@@ -52,24 +52,29 @@ class ScanSpec:
     theta: int = QUICK_GRID[0]
     lat: int = QUICK_GRID[1]
     times: int = QUICK_GRID[2]
+    frames_needed: bool = False  # also measure the frames the point's default mesh needs
 
     @property
     def one_strip(self) -> bool:
         return self.kind == "quick"
 
     def as_dict(self) -> dict:
-        return {"kind": self.kind, "grid": [self.theta, self.lat, self.times]}
+        out = {"kind": self.kind, "grid": [self.theta, self.lat, self.times]}
+        if self.frames_needed:  # absent otherwise, so the keys of plain scans stay as they were
+            out["frames_needed"] = True
+        return out
 
 
-def scan_spec(kind: str, grid=None) -> ScanSpec:
-    """The scan of a sweep: kind 'quick' or 'full', grid (theta, lat, times) or its default."""
+def scan_spec(kind: str, grid=None, frames_needed: bool = False) -> ScanSpec:
+    """The scan of a sweep: kind 'quick' or 'full', grid (theta, lat, times) or its default;
+    ``frames_needed`` also measures each point's frames (see sweeps.run.point_figures)."""
     if kind not in SCAN_KINDS:
         raise SweepInputError(f"--scan: must be one of {', '.join(SCAN_KINDS)}, got {kind!r}")
     nt, nl, ns = (QUICK_GRID if kind == "quick" else FULL_GRID) if grid is None else grid
     problem = scan_grid_problem(nt, nl, ns)
     if problem:
         raise SweepInputError(problem)
-    return ScanSpec(kind, int(nt), int(nl), int(ns))
+    return ScanSpec(kind, int(nt), int(nl), int(ns), bool(frames_needed))
 
 
 def _number(option: str, text: str) -> float:

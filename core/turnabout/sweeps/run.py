@@ -9,9 +9,12 @@ point is one pure function of its controls and scan grid, run whole on one worke
 
 Figures of a point (from :func:`~turnabout.eversion.regularity.scan`): the minimum
 normalised ratio with its time, longitude and latitude (degrees); the poles' minimum; the
-largest principal curvature x radius with its time, longitude and latitude; the frames the
-default mesh needs for the strip count (:func:`~turnabout.eversion.default_frames`,
-measured with the default windows); the verdict, ``regular`` when the ratio is at least
+largest principal curvature x radius with its time, longitude and latitude; the documented
+frames of the strip count (``default_frames``, from the tuned table); with a spec's
+``frames_needed``, the frames this point's own default mesh needs so that no vertex moves
+more than one local edge length per frame (the checker's step criterion; whole seconds at
+24 fps, measured on the baked frames by :func:`~turnabout.sweeps.pace.frames_needed`) and
+that largest step, or None for a point that fails (the tuned table keeps a margin: 0.95); the verdict, ``regular`` when the ratio is at least
 :data:`~turnabout.eversion.regularity.MIN_RATIO`, else ``fails``.
 """
 
@@ -37,7 +40,7 @@ MAX_POINT_FILE = 100_000  # bytes; a point's file is about 1 kB
 FIGURES = (
     "min_ratio", "min_ratio_t", "min_ratio_theta_deg", "min_ratio_lat_deg", "pole_min_ratio",
     "max_curvature", "max_curvature_t", "max_curvature_theta_deg", "max_curvature_lat_deg",
-    "default_frames", "verdict",
+    "default_frames", "frames_needed", "frames_needed_step", "verdict",
 )  # fmt: skip
 CSV_COLUMNS = (
     "key", "strips", "depth",
@@ -58,6 +61,16 @@ def point_figures(record: dict) -> dict:
                one_strip=record["scan"]["kind"] == "quick")  # fmt: skip
     t, th, la = rep.min_ratio_at
     tc, thc, lac = rep.max_curvature_at
+    regular = bool(rep.min_ratio >= MIN_RATIO)
+    frames = step = None
+    if record["scan"].get("frames_needed") and regular:
+        from ..eversion import mesh_for
+        from .pace import frames_needed
+
+        paced = frames_needed(
+            controls, mesh_for(controls), guess=default_frames(controls.strips), limit=1.0
+        )
+        frames, step = paced.frames, paced.largest
     return {
         "min_ratio": float(rep.min_ratio),
         "min_ratio_t": float(t),
@@ -69,7 +82,9 @@ def point_figures(record: dict) -> dict:
         "max_curvature_theta_deg": math.degrees(thc),
         "max_curvature_lat_deg": math.degrees(lac),
         "default_frames": default_frames(controls.strips),
-        "verdict": "regular" if rep.min_ratio >= MIN_RATIO else "fails",
+        "frames_needed": frames,
+        "frames_needed_step": step,
+        "verdict": "regular" if regular else "fails",
     }
 
 
@@ -175,6 +190,8 @@ def run_sweep(
 
 
 def _cell(v) -> str:
+    if v is None:
+        return ""
     return repr(v) if isinstance(v, float) else str(v)
 
 
