@@ -169,7 +169,7 @@ while i < len(args):
         import bpy
         bpy.ops.render.render(animation=True)
     elif a == "-P":
-        sys.argv = [args[i + 1]] + (args[args.index("--") + 1:] if "--" in args else [])
+        sys.argv = ["blender", *args]  # as Blender passes them: the script reads after --
         runpy.run_path(args[i + 1], run_name="__main__")
         sys.exit(0)
     else:

@@ -14,7 +14,8 @@ frames of the strip count (``default_frames``, from the tuned table); with a spe
 ``frames_needed``, the frames this point's own default mesh needs so that no vertex moves
 more than one local edge length per frame (the checker's step criterion; whole seconds at
 24 fps, measured on the baked frames by :func:`~turnabout.sweeps.pace.frames_needed`) and
-that largest step, or None for a point that fails (the tuned table keeps a margin: 0.95); the verdict, ``regular`` when the ratio is at least
+that largest step, or None for a point that fails (the tuned table keeps a margin: 0.95);
+the verdict, ``regular`` when the ratio is at least
 :data:`~turnabout.eversion.regularity.MIN_RATIO`, else ``fails``.
 """
 
