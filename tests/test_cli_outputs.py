@@ -279,9 +279,18 @@ def test_ctrl_c_during_a_real_build_exits_130_without_a_traceback(tmp_path):
         text=True,
         env=cli_env(),
     )
-    time.sleep(4.0)  # inside the regularity check or the build
+    # interrupt once the regularity check's bar has started (a scan of some seconds), not
+    # after a fixed delay: on a fast machine the whole build can end within a few seconds
+    seen, deadline = "", time.monotonic() + 120
+    while "regularity check" not in seen and time.monotonic() < deadline:
+        ch = proc.stderr.read(1)
+        if not ch:
+            break
+        seen += ch
+    assert "regularity check" in seen, seen
     proc.send_signal(signal.SIGINT)
-    _, err = proc.communicate(timeout=60)
+    _, rest = proc.communicate(timeout=60)
+    err = seen + rest
     assert proc.returncode == 130
     assert "Traceback" not in err and err.rstrip().endswith("turnabout build: cancelled")
     assert not (tmp_path / "a.npz").exists()
