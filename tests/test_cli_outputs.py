@@ -278,6 +278,9 @@ def test_ctrl_c_during_a_real_build_exits_130_without_a_traceback(tmp_path):
         stderr=subprocess.PIPE,
         text=True,
         env=cli_env(),
+        # as from a terminal: a shell that starts this run in the background ignores SIGINT,
+        # and a child that inherits that ignores Ctrl-C too
+        preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
     )
     # interrupt once the regularity check's bar has started (a scan of some seconds), not
     # after a fixed delay: on a fast machine the whole build can end within a few seconds
