@@ -167,3 +167,18 @@ def run_dask(
     except BaseException:
         client.cancel(list(futures))
         raise
+
+
+def run_tasks(
+    fn: Callable,
+    items: Sequence[tuple],
+    workers: int = 1,
+    client=None,
+    retries: int = 3,
+    keys: Sequence[str] = (),
+) -> Iterator[tuple[int, object]]:
+    """:func:`run_dask` on ``client`` (with ``retries`` and task ``keys``) when one is given,
+    else :func:`run_local` on ``workers`` processes."""
+    if client is not None:
+        return run_dask(client, fn, items, retries, keys)
+    return run_local(fn, items, workers)

@@ -172,12 +172,8 @@ def run_sweep(
     total, done = len(points), len(points) - len(todo)
     progress(done, total)
     items = [(records[i],) for i in todo]
-    if client is not None:
-        stream = cluster.run_dask(client, point_figures, items, retries,
-                                  keys=[f"turnabout-point-{keys[i]}" for i in todo])  # fmt: skip
-    else:
-        stream = cluster.run_local(point_figures, items, workers)
-    for j, figs in stream:
+    task_keys = [f"turnabout-point-{keys[i]}" for i in todo]
+    for j, figs in cluster.run_tasks(point_figures, items, workers, client, retries, task_keys):
         i = todo[j]
         write_point(folder, keys[i], records[i], figs)
         figures[i] = figs

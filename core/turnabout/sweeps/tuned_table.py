@@ -134,12 +134,8 @@ def run_pace(
     done = len(records) - len(todo)
     progress(done, len(records))
     items = [(records[i],) for i in todo]
-    if client is not None:
-        stream = cluster.run_dask(client, pace_figures, items, retries,
-                                  keys=[f"turnabout-pace-{keys[i]}" for i in todo])  # fmt: skip
-    else:
-        stream = cluster.run_local(pace_figures, items, workers)
-    for j, figs in stream:
+    task_keys = [f"turnabout-pace-{keys[i]}" for i in todo]
+    for j, figs in cluster.run_tasks(pace_figures, items, workers, client, retries, task_keys):
         i = todo[j]
         data = {"key": keys[i], "record": records[i], "figures": figs}
         atomic_write_bytes(where / f"{keys[i]}.json", _dumps(data))
