@@ -64,14 +64,13 @@ def test_four_spheres_meeting_once_have_one_quadruple_point_at_the_circumcentre(
     assert sorted(q.faces[0] // (F.shape[0] // 4)) == [0, 1, 2, 3]
 
 
-@pytest.mark.parametrize("substeps", [1, 8])
 @pytest.mark.parametrize("frames", [2, 4, 6])
-def test_few_frames_find_the_one_quadruple_point(frames, substeps):
+def test_few_frames_find_the_one_quadruple_point(frames):
     # near the moment the triple points move much faster than the vertices (across several
-    # triangles of each sphere per frame): one seen triple completed by every triangle that
-    # may meet all three, and intermediate seeding positions (substeps), each find it
+    # triangles of each sphere per frame): every candidate quadruple is solved, so the point
+    # is found however coarsely the motion is sampled
     P, F = four_spheres(frames=frames)
-    q = quadruple_points(P, F, substeps=substeps)
+    q = quadruple_points(P, F)
     assert q.count == 1 and np.linalg.norm(q.position[0]) < 0.02
     # the same moment of the motion, whatever the frame count: R = 1 a little before t = 1/2
     assert 0.47 < q.time[0] / (frames - 1) < 0.5
@@ -179,9 +178,11 @@ def test_four_sheets_through_one_point_at_a_frame_are_not_general_position():
     from turnabout.check.topology import MeshTopology
 
     P, F = four_planes(0.0, frames=3)
-    res = self_intersections(P[0], MeshTopology(F, P.shape[1]))
+    topo = MeshTopology(F, P.shape[1])
+    res = self_intersections(P[0], topo)
     assert list(res.triple_detections) == [12] and list(res.triple_coincident) == [12]
-    q = quadruple_points(P, F)
+    frames = {k: self_intersections(P[k], topo) for k in range(P.shape[0])}
+    q = quadruple_points(P, F, frame_intersections=frames)
     assert not q.general_position
     assert any("frame(s) with points where four or more sheets meet" in n for n in q.notes)
 
@@ -206,12 +207,12 @@ def test_only_moments_equal_to_rounding_are_shared(offset, copies):
     assert q.general_position == (not copies)
 
 
-def test_a_quadruple_point_seen_only_as_merged_triple_points_is_found():
+def test_a_quadruple_point_next_to_a_frame_is_found():
     # x = 0 and y = 0 fixed, z = 10 s rising out of both, and the plane x + y + z =
     # sqrt(3) off(s), off(s) = 10 s / sqrt(3) + d0 (1 - s / s0): the first three meet at
     # (0, 0, 10 s), on the fourth exactly when s = s0 (elementary geometry). At frame 0 the
     # four triple points lie within 3e-4 of each other, one merged point; at frame 1 no sheet
-    # meets another inside its triangle: the only seeds are the merged point's four triples
+    # meets another inside its triangle
     d0, s0 = 1e-4, 1e-3
     P = []
     for s in (0.0, 1.0):
@@ -226,12 +227,14 @@ def test_a_quadruple_point_seen_only_as_merged_triple_points_is_found():
     assert np.allclose(q.position[0], np.array([0, 0, 10 * s0]) @ _ROT.T + _SHIFT, atol=1e-9)
 
 
-def test_a_symmetric_motion_is_reported_as_not_in_general_position():
-    # the same four spheres with identical, unrotated meshes: mirror symmetries of the
-    # configuration make planes of four triangles keep a common point
+def test_mirror_symmetric_spheres_still_have_their_one_quadruple_point():
+    # the same four spheres with identical, unrotated meshes: the configuration and the
+    # meshes share mirror planes (x = y swaps spheres 1 and 2), so the point sits on mesh
+    # edges; found in the triangles on both sides of an edge, it is still one point
     P, F = four_spheres(turned=False)
     q = quadruple_points(P, F)
-    assert not q.general_position and q.notes
+    assert q.count == 1 and bool(q.confirmed[0]) and np.linalg.norm(q.position[0]) < 0.02
+    assert sorted(q.faces[0] // (F.shape[0] // 4)) == [0, 1, 2, 3]
 
 
 def test_check_animation_reports_quadruple_points_in_json():
@@ -271,8 +274,9 @@ def test_bad_input_is_refused(eps):
         break_symmetry(P, F, eps=eps)
     with pytest.raises(ValueError, match="positions"):
         quadruple_points(P[:1], F)
-    with pytest.raises(ValueError, match="substeps"):
-        quadruple_points(P, F, substeps=0)
+    for workers in (0, 1.5, True):
+        with pytest.raises(ValueError, match="workers"):
+            quadruple_points(P, F, workers=workers)
 
 
 # --------------------------------------------------------------------------- the eversion
@@ -332,12 +336,11 @@ def test_the_symmetric_eversion_is_not_in_general_position_and_the_displaced_one
     assert not any("common point for a whole interval" in n for n in gen.notes)
 
 
-def test_a_window_of_the_generic_default_eversion_is_certified_and_denser_seeding_adds_nothing():
+def test_a_window_of_the_generic_default_eversion_is_certified_and_workers_agree():
     # five frames of the default build (94,080 triangles) where the displaced motion has
     # about a hundred quadruple points: no coincident triple points, no shared moments, every
-    # point confirmed, and seeding from four positions per interval instead of the default
-    # finds exactly the same points (the parity itself needs the whole eversion: see
-    # docs/checker.md for the full count)
+    # point confirmed, and two worker processes give the very same points (the parity needs
+    # the whole eversion: see docs/checker.md for the full count)
     from turnabout.eversion import Controls, evaluate, mesh_for
     from turnabout.eversion.controls import default_frames
     from turnabout.eversion.generic import break_symmetry
@@ -351,6 +354,100 @@ def test_a_window_of_the_generic_default_eversion_is_certified_and_denser_seedin
     q = quadruple_points(G, F)
     assert q.general_position and q.notes == [], q.notes
     assert q.count > 50 and np.all(q.confirmed)
-    dense = quadruple_points(G, F, substeps=4)
-    assert dense.count == q.count
-    assert np.allclose(np.sort(dense.time), np.sort(q.time), atol=1e-9)
+    two = quadruple_points(G, F, workers=2)
+    assert np.array_equal(two.time, q.time) and np.array_equal(two.faces, q.faces)
+    assert np.array_equal(two.position, q.position)
+
+
+def _solve_all(P, F, quads):
+    """Reference: the interval solve on the given quadruples of every interval (merged the
+    way quadruple_points merges)."""
+    from turnabout.check.quadruple import _merge, quadruple_points_between_quads
+    from turnabout.check.topology import MeshTopology
+
+    topo = MeshTopology(F, P.shape[1])
+    ks, ss, xs, fs, cs = [], [], [], [], []
+    for k in range(P.shape[0] - 1):
+        s, x, fq, conf, _, _ = quadruple_points_between_quads(P[k], P[k + 1], topo, quads(k))
+        ks.append(np.full(s.size, k)), ss.append(s), xs.append(x), fs.append(fq), cs.append(conf)
+    k, s = np.concatenate(ks), np.concatenate(ss)
+    x, fq = np.concatenate(xs).reshape(-1, 3), np.concatenate(fs).reshape(-1, 4)
+    e = P[0][topo.edges[:, 1]] - P[0][topo.edges[:, 0]]
+    keep, _ = _merge(k, s, x, fq, np.concatenate(cs), float(np.linalg.norm(e, axis=1).mean()))
+    return k[keep] + s[keep], np.sort(fq[keep], axis=1)
+
+
+def test_candidates_lose_no_quadruple_point_of_a_triangle_soup():
+    # 36 separate triangles moving on random straight lines through a small box: the solve
+    # on every one of the 58,905 quadruples of triangles is the reference (no candidate
+    # selection at all); the checker's candidates must give exactly its points
+    from itertools import combinations
+
+    rng = np.random.default_rng(20261205)
+    n = 36
+    P = rng.uniform(-1.0, 1.0, (4, 3 * n, 3))
+    P += (
+        rng.uniform(-0.6, 0.6, (1, n, 1, 3)).repeat(3, axis=2).reshape(1, 3 * n, 3)
+        * np.arange(4)[:, None, None]
+    )
+    F = np.arange(3 * n).reshape(n, 3)
+    every = np.array(list(combinations(range(n), 4)), np.int64)
+    t_ref, f_ref = _solve_all(P, F, lambda k: every)
+    q = quadruple_points(P, F)
+    assert t_ref.size > 20  # a soup this dense has many
+    order = np.argsort(q.time)
+    assert np.array_equal(q.time[order], np.sort(t_ref))
+    assert np.array_equal(np.sort(q.faces, axis=1)[order], f_ref[np.argsort(t_ref)])
+
+
+def test_the_separating_axes_lose_no_quadruple_point_of_a_coarse_eversion(monkeypatch):
+    # a coarse generic eversion (3,072 triangles, 120 frames), interval 54 (about 600
+    # points): the candidates from the swept graph with its separating-axis test against
+    # those from boxes alone (every pair whose boxes of end positions overlap), which gives
+    # about four times as many quadruples to solve
+    from turnabout.check import quadruple_candidates as qc
+    from turnabout.check.intersections import grid_candidate_pairs
+    from turnabout.eversion import Controls, evaluate, mesh_for
+    from turnabout.eversion.generic import break_symmetry
+
+    c = Controls()
+    mesh = mesh_for(c, n_lon=64, n_lat=24)
+    F = mesh.triangles()
+    t = np.linspace(0.0, 1.0, 120)[54:56]
+    G = break_symmetry(evaluate(c, t, mesh), F, t, rest=evaluate(c, [0.0], mesh)[0])
+    q = quadruple_points(G, F)
+
+    def box_pairs(P0, P1, topo):
+        corners = np.concatenate([P0[topo.faces], P1[topo.faces]], axis=1)
+        a, b = grid_candidate_pairs(corners.min(axis=1), corners.max(axis=1))
+        share = (topo.faces[a][:, :, None] == topo.faces[b][:, None, :]).any(axis=(1, 2))
+        a, b = a[~share], b[~share]
+        order = np.lexsort((b, a))
+        return a[order], b[order]
+
+    monkeypatch.setattr(qc, "swept_pairs", box_pairs)
+    boxes = quadruple_points(G, F)
+    assert q.count > 400 and boxes.count == q.count
+    assert np.array_equal(boxes.time, q.time) and np.array_equal(boxes.faces, q.faces)
+    assert boxes.candidates > 2 * q.candidates
+
+
+def test_the_generic_default_eversion_has_an_odd_number_of_quadruple_points():
+    # Max and Banchoff ("Every sphere eversion has a quadruple point", Contributions to
+    # Analysis and Geometry, Johns Hopkins University Press, 1981): a sphere eversion in
+    # general position has an odd number of quadruple points. The default build (480 frames
+    # x 94,080 triangles) with its symmetry broken: every frame an immersion by the frame
+    # check, the motion in general position by the checker's rules, and an odd count
+    from turnabout.eversion import Controls, build
+    from turnabout.eversion.generic import break_symmetry
+
+    ev = build(Controls())
+    P = np.asarray(ev.positions, np.float64)
+    G = break_symmetry(P, ev.faces, ev.times, rest=P[0])
+    del P
+    frames = check_animation(G, ev.faces, intersections=False)
+    assert frames.failing_frames() == [] and frames.everted
+    q = quadruple_points(G, ev.faces, workers=2)
+    assert q.general_position and q.notes == [], q.notes
+    assert np.all(q.confirmed)
+    assert q.count % 2 == 1, q.count

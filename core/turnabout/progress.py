@@ -27,19 +27,27 @@ class ProgressBar:
     def __init__(self, description: str, total: int, enabled: bool = True):
         self.total = total
         self.enabled = enabled
+        self._description = description
         self._bar = None
+        self._started = False
         self._last = -1
-        if enabled:
-            try:
-                from tqdm import tqdm
 
-                self._bar = tqdm(total=total, desc=description, unit="step", file=sys.stderr)
-            except ImportError:
-                self._description = description
+    def _start(self) -> None:
+        # shown from its first step, so a bar for a later stage waits for its turn
+        self._started = True
+        try:
+            from tqdm import tqdm
+
+            self._bar = tqdm(total=self.total, desc=self._description, unit="step",
+                             file=sys.stderr)  # fmt: skip
+        except ImportError:
+            pass
 
     def __call__(self, done: int, total: int) -> None:
         if not self.enabled:
             return
+        if not self._started:
+            self._start()
         if self._bar is not None:
             if total != self._bar.total:
                 self._bar.total = total

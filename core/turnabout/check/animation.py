@@ -352,6 +352,7 @@ def check_animation(
     quadruple: bool = False,
     client=None,
     retries: int = 3,
+    quadruple_progress: ProgressFn | None = None,
 ) -> AnimationReport:
     """Judge every frame of an animation of a fixed mesh.
 
@@ -363,7 +364,8 @@ def check_animation(
     intersection broad phase from Blender's BVH when importable; workers > 1 judges chunks
     of frames in that many forked processes (POSIX only; otherwise frames run in-process);
     quadruple=True (with intersections) also finds the quadruple points between frames
-    (turnabout.check.quadruple; report.quadruple_points).
+    (turnabout.check.quadruple; report.quadruple_points), on ``workers`` processes, calling
+    quadruple_progress(done, total) as intervals finish.
     level_counts(positions (F, V, 3), faces (M, 3) int32) -> (F, 4) int: per frame the
     level points' signed count and the numbers of domes, bowls and saddles (see
     turnabout.views.levels), called once on closed orientable manifolds (faces oriented);
@@ -431,7 +433,8 @@ def check_animation(
     if quadruple and intersections and n_frames >= 2:
         from .quadruple import quadruple_points
 
-        quad = quadruple_points(P, topo.faces, frame_intersections=inter_results)
+        quad = quadruple_points(P, topo.faces, quadruple_progress, inter_results,
+                                workers=1 if client is not None else workers)  # fmt: skip
     rank = max((VERDICTS.index(f.verdict) for f in frames), default=0)
     if anim_reasons and rank == 0:
         rank = 1

@@ -14,17 +14,11 @@ sampled at ten Chebyshev nodes, which fixes it exactly; its real roots in [0, 1]
 bracketed on a fine grid and refined by bisection; each root's common point is kept when
 it lies inside all four moving triangles.
 
-Candidates (quadruple_seeds.py) grow from the triple points of the frames at the two ends of
-the interval, every distinct one, also those the triple-point merge radius gathered (the
-moving triple point of three sheets is what meets the fourth): each triple of triangles is
-widened by letting one triangle be any that shares a vertex with it, and each widened triple
-is completed by every fourth triangle that may meet all three while moving (no shared
-vertex, overlapping boxes of the six end positions, which hold the moving triangle, no
-separation along either mid-motion normal) and whose box meets the common part of theirs.
-Near the moment all four triples are triple points, and one of them seen within one
-triangle of where it is at the moment is enough. An interval where some vertex moves further
-than the mean length of its edges (the checker's step metric) is also seeded from
-intermediate positions, one per such length moved, and ``substeps`` asks for more.
+Candidates (quadruple_candidates.py): every quadruple of triangles, no two sharing a vertex,
+that pairwise may meet while moving (no axis separates them on one side at both ends of the
+interval) and whose boxes of end positions share a point. This is every quadruple that can
+hold a quadruple point, so the count does not depend on where triple points happen to be
+seen: a triple point born and gone between two frames still meets its fourth sheet.
 
 Confirmation (the change in the triple points' structure): just before and just after the
 moment, the four triple points of the four sheets taken three at a time span a small
@@ -53,8 +47,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..progress import ProgressFn, no_progress
-from .intersections import self_intersections
-from .quadruple_seeds import SweptGraph, seeded_quadruples, swept_graph
+from .quadruple_candidates import swept_graph, swept_quadruples
 from .topology import MeshTopology, as_triangles
 
 DEGREE = 9  # degree of D(s)
@@ -69,9 +62,6 @@ SAME_PLACE = 1e-4  # ... in space, as a fraction of the mean edge length
 EXPLAINED = 0.1  # a frame's four-sheet point this close to a quadruple point (in local
 # edge lengths, within a frame of its moment) is that quadruple point seen at the frame
 _TINY = 1e-300
-MAX_STEP = 1.0  # local edge lengths (mean at the vertex) moved between seeding positions
-MAX_PIECES = 16
-MIN_REFINE = 1.0 / 64  # smallest piece of an interval refined by its midpoint's seeds
 INSIDE_TOL = 1e-9  # barycentric tolerance of the inside test (a point on a shared edge
 # is found in both triangles and merged)
 
@@ -229,25 +219,16 @@ def _tetra_sign(C0, C1, s) -> np.ndarray:
 # --------------------------------------------------------------------------- per interval
 
 
-def quadruple_points_between(
-    P0: np.ndarray,
-    P1: np.ndarray,
-    topo: MeshTopology,
-    triples: np.ndarray,
-    graph: SweptGraph | None = None,
-):
+def quadruple_points_between(P0: np.ndarray, P1: np.ndarray, topo: MeshTopology):
     """Quadruple points while the vertices move linearly from P0 to P1 ((V, 3) float).
 
-    triples : (T, 3) int triangles of the triple points at seeding positions (seeds of the
-    candidates, see seeded_quadruples); graph : the interval's swept_graph (built here when
-    None). Returns unmerged detections (s (N,), position (N, 3), faces (N, 4), confirmed
-    (N,)), the count of quadruples whose four planes keep a common point for the whole
-    interval, the count of candidates and the candidates themselves (Q, 4) int64.
+    Returns unmerged detections (s (N,), position (N, 3), faces (N, 4), confirmed (N,)),
+    the count of quadruples whose four planes keep a common point for the whole interval
+    and the count of candidates (quadruple_candidates.swept_quadruples).
     """
     P0 = np.asarray(P0, np.float64)
     P1 = np.asarray(P1, np.float64)
-    quads = seeded_quadruples(triples, P0, P1, topo, graph)
-    return (*_solve_chunked(P0, P1, topo, quads), quads)
+    return _solve_chunked(P0, P1, topo, swept_quadruples(swept_graph(P0, P1, topo)))
 
 
 def _solve_chunked(P0, P1, topo: MeshTopology, quads: np.ndarray):
@@ -259,53 +240,6 @@ def _solve_chunked(P0, P1, topo: MeshTopology, quads: np.ndarray):
     return (np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out]),
             np.concatenate([o[2] for o in out]), np.concatenate([o[3] for o in out]),
             sum(o[4] for o in out), int(quads.shape[0]))  # fmt: skip
-
-
-def _rows(q: np.ndarray) -> np.ndarray:
-    """Rows of an (N, 4) int64 array as one opaque value each, for np.isin."""
-    return np.ascontiguousarray(q, np.int64).view(np.dtype((np.void, 32))).ravel()
-
-
-def refined_interval(P0, P1, topo: MeshTopology, knots: list, seeds: list):
-    """Quadruple points of the motion P0 -> P1 seeded at ``knots`` (sorted s values, 0 and 1
-    included, with their seed triples ``seeds``), then at the midpoint of every piece whose
-    midpoint's triple points find a point the others did not, down to pieces of
-    MIN_REFINE. Returns (s, x, faces, confirmed, flat count, candidate count)."""
-    graph = swept_graph(P0, P1, topo)
-    s, x, fq, conf, flat, cand, tried = quadruple_points_between(
-        P0, P1, topo, np.concatenate(seeds), graph
-    )
-    found = [(s, x, fq, conf)]
-    todo = [(knots[i], knots[i + 1]) for i in range(len(knots) - 1)]
-    while todo:
-        u, v = todo.pop()
-        if v - u <= MIN_REFINE * (1 + 1e-9):
-            continue
-        mid = 0.5 * (u + v)
-        sm = _seed_triples(self_intersections(P0 + (P1 - P0) * mid, topo))
-        quads = seeded_quadruples(sm, P0, P1, topo, graph)
-        quads = quads[~np.isin(_rows(quads), _rows(tried))]
-        tried = np.concatenate([tried, quads])
-        s2, x2, f2, c2, fl2, ca2 = _solve_chunked(P0, P1, topo, quads)
-        flat += fl2
-        cand += ca2
-        known = np.sort(np.concatenate([f[0] for f in found]))
-        pos = np.clip(np.searchsorted(known, s2), 1, max(known.size - 1, 1))
-        near = np.zeros(s2.size, bool)
-        if known.size:
-            near = (
-                np.minimum(
-                    np.abs(known[pos - 1] - s2), np.abs(known[np.minimum(pos, known.size - 1)] - s2)
-                )
-                < SAME_MOMENT
-            )
-        if s2.size:
-            found.append((s2, x2, f2, c2))
-        if np.any(~near):
-            todo += [(u, mid), (mid, v)]
-    return (np.concatenate([f[0] for f in found]), np.concatenate([f[1] for f in found]),
-            np.concatenate([f[2] for f in found]), np.concatenate([f[3] for f in found]),
-            flat, cand)  # fmt: skip
 
 
 def quadruple_points_between_quads(P0, P1, topo: MeshTopology, quads: np.ndarray):
@@ -376,15 +310,85 @@ def _sheet_count(face_ids: set[int], faces: np.ndarray) -> int:
     return len({root(i) for i in range(len(ids))})
 
 
-def _seed_triples(res) -> np.ndarray:
-    """The triangle triples (T, 3) int64 of a frame's triple points, every distinct one: the
-    merge radius gathers the four triple points of four sheets shortly before or after their
-    quadruple point into one point, and seeding from its one listed triple would lose the
-    others (and with them the candidate)."""
-    if res is None:
-        return np.zeros((0, 3), np.int64)
-    sets = getattr(res, "triple_face_sets", None)
-    return np.asarray(res.triple_faces if sets is None else sets, np.int64).reshape(-1, 3)
+def _intervals(P: np.ndarray, topo: MeshTopology, start: int, stop: int, progress=None):
+    """Detections of the intervals start .. stop - 1: a list of (k, s, x, faces, confirmed)
+    plus the flat and candidate counts."""
+    parts, flat_total, cand_total = [], 0, 0
+    for k in range(start, stop):
+        s, x, fq, conf, flat, cand = quadruple_points_between(P[k], P[k + 1], topo)
+        flat_total += flat
+        cand_total += cand
+        parts.append((np.full(s.size, k), s, x, fq, conf))
+        if progress is not None:
+            progress(k - start + 1)
+    return parts, flat_total, cand_total
+
+
+_POOL_JOB: tuple | None = None  # (P, topo) in forked workers
+
+
+def _pool_init(job) -> None:
+    global _POOL_JOB
+    _POOL_JOB = job
+
+
+def _pool_range(start: int, stop: int):
+    P, topo = _POOL_JOB
+    return _intervals(P, topo, start, stop)
+
+
+def _run_intervals(P, topo: MeshTopology, workers: int, progress: ProgressFn):
+    """Every interval's detections, in interval order, on ``workers`` forked processes."""
+    import multiprocessing as mp
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
+    n_int = P.shape[0] - 1
+    if workers == 1 or n_int < 2 or "fork" not in mp.get_all_start_methods():
+        return _intervals(P, topo, 0, n_int, lambda done: progress(done, n_int))
+    # small chunks: the costly intervals (mid-motion) sit together
+    chunk = max(1, -(-n_int // (16 * workers)))
+    bounds = [(a, min(a + chunk, n_int)) for a in range(0, n_int, chunk)]
+    results, done = {}, 0
+    with ProcessPoolExecutor(
+        max_workers=workers, mp_context=mp.get_context("fork"),
+        initializer=_pool_init, initargs=((P, topo),),
+    ) as pool:  # fmt: skip
+        futures = {pool.submit(_pool_range, a, b): (a, b) for a, b in bounds}
+        try:
+            for fut in as_completed(futures):
+                a, b = futures[fut]
+                results[a] = fut.result()
+                done += b - a
+                progress(done, n_int)
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
+    ordered = [results[a] for a in sorted(results)]
+    return ([p for r in ordered for p in r[0]], sum(r[1] for r in ordered),
+            sum(r[2] for r in ordered))  # fmt: skip
+
+
+def _crowded_points(P, topo: MeshTopology, frame_intersections: dict):
+    """(frame, position, edge length) of each point where a frame's triple-point detections
+    agree to rounding in a number only four or more sheets explain. Distinct triple points
+    that the merge radius gathered (the four triple points of four sheets shortly before or
+    after their quadruple point, or passing near each other without one) are not that: at
+    a frame they are apart, and whether the four sheets meet between frames is what the
+    interval solve decides."""
+    from .animation import sheets_meeting
+
+    out: list[tuple[int, np.ndarray, float]] = []
+    for k in sorted(frame_intersections):
+        res = frame_intersections[k]
+        if res is None or not res.triple_detections.size:
+            continue
+        same = res.triple_detections if res.triple_coincident is None else (
+            res.triple_coincident)  # fmt: skip
+        where = np.flatnonzero(sheets_meeting(same) >= 4)
+        f0 = topo.faces[res.triple_faces[where, 0]]
+        size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
+        out += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
+    return out
 
 
 def quadruple_points(
@@ -392,94 +396,30 @@ def quadruple_points(
     faces,
     progress: ProgressFn | None = None,
     frame_intersections: dict | None = None,
-    substeps: int = 1,
+    workers: int = 1,
 ) -> QuadruplePoints:
     """Quadruple points of an animation of a fixed triangle mesh.
 
     positions : (F, V, 3) float32/float64 (F >= 2); faces : (M, 3) int;
     frame_intersections : optional {frame: IntersectionResult} already computed for these
-    positions (a frame missing from it has no triple point); computed here when None.
-    substeps : seed every interval from at least this many equal steps (1 to MAX_PIECES):
-    triple points can move much faster than the vertices near tangencies, so a coarse
-    animation may need more. progress(done, total) is called once per frame computed and
-    once per interval. Moments are in frames (k + s).
+    positions, used only to notice four sheets through one point at a frame (a note on
+    general position); the points themselves come from every candidate quadruple of every
+    interval (quadruple_candidates.py). workers : intervals are solved in that many forked
+    processes (POSIX; otherwise in this one), with the same result. progress(done, total)
+    is called as intervals finish. Moments are in frames (k + s).
     """
-    from .animation import sheets_meeting
-
-    if isinstance(substeps, bool) or not isinstance(substeps, int | np.integer):
-        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
-    if not 1 <= substeps <= MAX_PIECES:
-        raise ValueError(f"substeps must be an integer from 1 to {MAX_PIECES}, got {substeps!r}")
+    if isinstance(workers, bool) or not isinstance(workers, int | np.integer) or workers < 1:
+        raise ValueError(f"workers must be an integer >= 1, got {workers!r}")
     progress = no_progress if progress is None else progress
     P = np.asarray(positions, np.float64)
     if P.ndim != 3 or P.shape[0] < 2 or P.shape[2] != 3:
         raise ValueError(f"positions must be (frames >= 2, V, 3), got {P.shape}")
     tri = as_triangles(np.asarray(faces), P.shape[1])
     topo = MeshTopology(tri, P.shape[1])
-    n_frames = P.shape[0]
-    n_int = n_frames - 1
-    parts = []
-    flat_total = 0
-    cand_total = 0
-    crowded_points: list[tuple[int, np.ndarray, float]] = []
-    total = n_int + (0 if frame_intersections is not None else n_frames)
-    done = 0
-    if frame_intersections is None:
-        frame_intersections = {}
-        for k in range(n_frames):
-            frame_intersections[k] = self_intersections(P[k], topo)
-            done += 1
-            progress(done, total)
-    triples = []
-    for k in range(n_frames):
-        res = frame_intersections.get(k)
-        triples.append(_seed_triples(res))
-        if res is not None and res.triple_detections.size:
-            # four or more sheets through one point: detections that agree to rounding in a
-            # number only k >= 4 sheets explain. Distinct triple points that the merge radius
-            # gathered (the four triple points of four sheets shortly before or after their
-            # quadruple point, or passing near each other without one) are not that: at a
-            # frame they are apart, and whether the four sheets meet between frames is what
-            # the interval solve decides
-            same = res.triple_detections if res.triple_coincident is None else (
-                res.triple_coincident)  # fmt: skip
-            where = np.flatnonzero(sheets_meeting(same) >= 4)
-            f0 = topo.faces[res.triple_faces[where, 0]]
-            size = np.linalg.norm(P[k][f0[:, 1]] - P[k][f0[:, 0]], axis=1)
-            crowded_points += [(k, res.triple_points[i], size[j]) for j, i in enumerate(where)]
-    # local edge length at each vertex: the mean length of its edges, as the checker's
-    # step metric measures it (averaged over the interval's two ends)
-    ev = topo.edges
-    degree = np.maximum(np.bincount(ev.ravel(), minlength=P.shape[1]), 1)
-
-    def local_length(X: np.ndarray) -> np.ndarray:
-        el = np.linalg.norm(X[ev[:, 1]] - X[ev[:, 0]], axis=1)
-        return np.bincount(ev.ravel(), np.repeat(el, 2), minlength=X.shape[0]) / degree
-
-    len_next = local_length(P[0])
-    for k in range(n_int):
-        parts_seeds = [np.reshape(triples[k], (-1, 3)), np.reshape(triples[k + 1], (-1, 3))]
-        # a fast interval (some vertex moving more than its local edge length) is also
-        # seeded from the triple points of intermediate positions, one per length moved
-        len_here, len_next = len_next, local_length(P[k + 1])
-        mean_len = np.maximum(0.5 * (len_here + len_next), _TINY)
-        step = float(np.max(np.linalg.norm(P[k + 1] - P[k], axis=1) / mean_len))
-        pieces = int(min(max(np.ceil(step / MAX_STEP), substeps), MAX_PIECES))
-        for j in range(1, pieces):
-            Pj = P[k] + (P[k + 1] - P[k]) * (j / pieces)
-            parts_seeds.append(_seed_triples(self_intersections(Pj, topo)))
-        knots = [j / pieces for j in range(pieces + 1)]
-        parts_seeds = [parts_seeds[0], *parts_seeds[2:], parts_seeds[1]]  # in knot order
-        if any(p.size for p in parts_seeds):
-            found = refined_interval(P[k], P[k + 1], topo, knots, parts_seeds)
-        else:
-            found = _solve_chunked(P[k], P[k + 1], topo, np.zeros((0, 4), np.int64))
-        s, x, fq, conf, flat, cand = found
-        flat_total += flat
-        cand_total += cand
-        parts.append((np.full(s.size, k), s, x, fq, conf))
-        done += 1
-        progress(done, total)
+    crowded_points = _crowded_points(P, topo, frame_intersections or {})
+    parts, flat_total, cand_total = _run_intervals(P, topo, int(workers), progress)
+    if not parts:
+        parts = [(np.zeros(0), np.zeros(0), np.zeros((0, 3)), np.zeros((0, 4)), np.zeros(0))]
     interval = np.concatenate([p[0] for p in parts]).astype(np.int64)
     s = np.concatenate([p[1] for p in parts])
     x = np.concatenate([p[2] for p in parts]).reshape(-1, 3)

@@ -183,6 +183,8 @@ def run(args: argparse.Namespace) -> int:
     except OSError as exc:
         return _error(f"{args.path}: cannot read ({exc})")
     bar = ProgressBar("checking frames", seq.n_frames, enabled=not args.quiet)
+    qbar = ProgressBar("quadruple points", seq.n_frames - 1,
+                       enabled=args.quadruple_points and not args.quiet)  # fmt: skip
     dask = cluster.dask_client(args.scheduler) if args.scheduler else contextlib.nullcontext()
     try:
         with dask as client:
@@ -198,18 +200,19 @@ def run(args: argparse.Namespace) -> int:
                 level_up=up,
                 quadruple=args.quadruple_points,
                 client=client,
+                quadruple_progress=qbar,
             )
     except cluster.SchedulerError as exc:
-        bar.close()
+        bar.close(), qbar.close()
         return _error(str(exc))
     except CheckInputError as exc:
-        bar.close()
+        bar.close(), qbar.close()
         return _error(f"{args.path}: {exc}")
     except Cancelled:
-        bar.close()
+        bar.close(), qbar.close()
         print("turnabout check: cancelled", file=sys.stderr)
         return 130
-    bar.close()
+    bar.close(), qbar.close()
     try:
         if args.json:
             report.write_json(args.json)
