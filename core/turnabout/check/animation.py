@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import multiprocessing as mp
+import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 
@@ -213,6 +214,18 @@ class _FrameJob:
     use_mathutils: bool
     times: np.ndarray | None
     sums: CornerSums  # the topology's corner tables, built once and shared (read-only)
+    threads: int = 1  # threads of each frame's self-intersection search
+
+
+THREADS = 4  # most threads one frame's self-intersection search uses
+
+
+def intersection_threads(workers: int) -> int:
+    """Threads per process for the self-intersection search when ``workers`` processes share
+    the machine: the cores left to each, from 1 to THREADS."""
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    w = workers if isinstance(workers, int | np.integer) and workers >= 1 else 1
+    return int(max(1, min(THREADS, (cores or 1) // w)))
 
 
 def _judge_range(job: _FrameJob, start: int, stop: int, progress: ProgressFn | None = None):
@@ -227,7 +240,8 @@ def _judge_range(job: _FrameJob, start: int, stop: int, progress: ProgressFn | N
                            orientable=job.orientable, sums=job.sums)  # fmt: skip
         inter = None
         if job.intersections:
-            inter = self_intersections(Pk, job.topo, use_mathutils=job.use_mathutils)
+            inter = self_intersections(Pk, job.topo, use_mathutils=job.use_mathutils,
+                                       threads=job.threads)  # fmt: skip
             if inter.segments.shape[0]:
                 inters[k] = inter
         t = float(job.times[k]) if job.times is not None else float("nan")
@@ -416,8 +430,11 @@ def check_animation(
     chi = treport.euler_characteristic
     closed_manifold = treport.is_manifold
     ref = reference_frame(P[0], topo)
+    # one process uses the machine's cores as threads of the self-intersection search (up to
+    # THREADS); several processes use one each. The results do not depend on it.
+    threads = 1 if client is not None else intersection_threads(workers)
     job = _FrameJob(P, topo, ref, th, chi, closed_manifold, orientable, intersections,
-                    use_mathutils, times, CornerSums(topo))  # fmt: skip
+                    use_mathutils, times, CornerSums(topo), threads)  # fmt: skip
     frames, inter_results = _run_frames(job, workers, progress, client, retries)
     counts = None
     if level_counts is not None and closed_manifold and orientable:

@@ -25,11 +25,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .broad_phase import entry_pairs, expand_ranges, grid_candidate_pairs, grid_entries
 from .topology import MeshTopology, component_labels
 
+__all__ = ["IntersectionResult", "grid_candidate_pairs", "self_intersections"]
+
 _TINY = np.finfo(np.float64).tiny
-SWEEP_BITS = 20  # quantisation of x inside a grid cell for the sweep
-ONE_KEY_CELLS = 2.0 ** (62 - SWEEP_BITS)  # grids with fewer cells sort on one int64 key
 
 
 @dataclass
@@ -103,98 +104,6 @@ def _chain_points(segments: np.ndarray, seg_ids: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- broad phase
-
-
-def _expand_ranges(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(owner, local) for ``counts[i]`` consecutive items per owner i."""
-    owner = np.repeat(np.arange(counts.size), counts)
-    local = np.arange(owner.size) - np.repeat(np.cumsum(counts) - counts, counts)
-    return owner, local
-
-
-def grid_candidate_pairs(
-    lo: np.ndarray, hi: np.ndarray, cell_scale: float = 1.5
-) -> tuple[np.ndarray, np.ndarray]:
-    """Pairs (i, j), i < j, of boxes that overlap: lo, hi (M, 3) float box corners.
-
-    A uniform grid with cells ``cell_scale`` times the mean box extent. Inside each cell the
-    boxes are sorted by their low x and only those whose x ranges overlap are paired (a sweep
-    by binary search), so a crowded cell costs its overlapping pairs, not all its pairs. A
-    pair is kept only in the first cell (lowest index on every axis) that both boxes cover,
-    so each pair is reported once. Boxes are compared in float32, widened by one float32
-    step so rounding cannot lose a touching pair. Returns two (K,) int64 arrays.
-    """
-    lo = np.asarray(lo, np.float64)
-    hi = np.asarray(hi, np.float64)
-    m = lo.shape[0]
-    if m < 2:
-        return np.zeros(0, np.int64), np.zeros(0, np.int64)
-    ext = hi - lo
-    h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
-    origin = lo.min(axis=0)
-    imin = np.floor((lo - origin) / h).astype(np.int64)
-    imax = np.floor((hi - origin) / h).astype(np.int64)
-    dims = imax.max(axis=0) + 1
-    span = imax - imin + 1
-    counts = span[:, 0] * span[:, 1] * span[:, 2]
-    tri, local = _expand_ranges(counts)
-    sx, sy = span[tri, 0], span[tri, 1]
-    cx = imin[tri, 0] + local % sx
-    cy = imin[tri, 1] + (local // sx) % sy
-    cz = imin[tri, 2] + local // (sx * sy)
-    key = (cx * dims[1] + cy) * dims[2] + cz
-    # a pair belongs to the first cell both boxes cover (the max of their low cells on every
-    # axis): in that cell, on each axis, at least one of the two starts there. Bit k of an
-    # entry's mask says its box starts in the entry's cell on axis k.
-    mask = (cx == imin[tri, 0]).astype(np.uint8)
-    mask |= (cy == imin[tri, 1]).astype(np.uint8) << 1
-    mask |= (cz == imin[tri, 2]).astype(np.uint8) << 2
-    del cx, cy, cz, sx, sy, local
-    lo32 = np.nextafter(lo.astype(np.float32), np.float32(-np.inf))
-    hi32 = np.nextafter(hi.astype(np.float32), np.float32(np.inf))
-    # sweep key: the cell, then the low x quantised by a monotone floor, in one int64, so
-    # one sort orders entries by cell and then (up to ties in the quantum) by x; a binary
-    # search per entry finds the last partner in its cell whose quantised low x is not
-    # beyond its own quantised high x (never too few: the floor keeps the order)
-    x_lo = lo32[:, 0].astype(np.float64)
-    x_hi = hi32[:, 0].astype(np.float64)
-    x0 = float(x_lo.min())
-    levels = float(2**SWEEP_BITS - 1)
-    scale = levels / max(float(x_hi.max()) - x0, _TINY)
-    q_lo = np.minimum(np.floor((x_lo - x0) * scale), levels).astype(np.int64)
-    q_hi = np.minimum(np.floor((x_hi - x0) * scale), levels).astype(np.int64)
-    if float(dims.prod()) < ONE_KEY_CELLS:
-        sweep = (key << SWEEP_BITS) | q_lo.take(tri)
-        order = np.argsort(sweep, kind="stable")
-        sweep, tri, mask = sweep[order], tri[order].astype(np.int32), mask[order]
-        query = ((sweep >> SWEEP_BITS) << SWEEP_BITS) | q_hi.take(tri)
-    else:  # a grid too large for one key: sort by cell, then by x, in two keys
-        order = np.lexsort((q_lo.take(tri), key))
-        key, tri, mask = key[order], tri[order].astype(np.int32), mask[order]
-        new = np.ones(key.size, bool)
-        new[1:] = key[1:] != key[:-1]
-        rank = np.cumsum(new) - 1
-        sweep = rank * (2**SWEEP_BITS) + q_lo.take(tri)
-        query = rank * (2**SWEEP_BITS) + q_hi.take(tri)
-    n = tri.size
-    del order, key
-    stop = np.searchsorted(sweep, query, side="right")
-    del sweep, query
-    first, off = _expand_ranges(np.maximum(stop - np.arange(n) - 1, 0))
-    second = first + 1 + off
-    del off, stop
-    home = (mask.take(first) | mask.take(second)) == 7
-    a, b = tri.take(first[home]), tri.take(second[home])
-    del first, second, home
-    for ax in (1, 2, 0):  # x last: the sweep only missed pairs tied after rounding
-        lo_ax = np.ascontiguousarray(lo32[:, ax])
-        hi_ax = np.ascontiguousarray(hi32[:, ax])
-        ok = lo_ax.take(a) <= hi_ax.take(b)
-        ok &= lo_ax.take(b) <= hi_ax.take(a)
-        a, b = a[ok], b[ok]
-    a, b = a.astype(np.int64), b.astype(np.int64)
-    swap = a > b
-    return np.where(swap, b, a), np.where(swap, a, b)
 
 
 def _mathutils_pairs(P: np.ndarray, faces: np.ndarray):  # pragma: no cover - optional
@@ -340,35 +249,14 @@ def _plane_values(fr: _Frame, t: np.ndarray, corners: np.ndarray) -> np.ndarray:
 
 # --------------------------------------------------------------------------- main
 
+PARTS_PER_THREAD = 4  # grid parts per thread: mid-motion frames crowd a few cell ranges
 
-def self_intersections(
-    positions: np.ndarray,
-    topo: MeshTopology,
-    use_mathutils: bool = False,
-    cell_scale: float = 1.5,
-) -> IntersectionResult:
-    """Double curves and triple points of one frame.
 
-    positions : (V, 3) float; topo : the mesh topology (faces (M, 3)).
-    use_mathutils : take the broad phase from Blender's BVH overlap when importable.
-    """
-    P = np.asarray(positions, np.float64)
-    faces = topo.faces.astype(np.int64)
-    m = faces.shape[0]
-    fr = _Frame(P, faces)
-    pairs = _mathutils_pairs(P, faces) if use_mathutils else None
-    broad = "mathutils" if pairs is not None else "grid"
-    if pairs is None:
-        cols = topo.corner_columns
-        lo = np.empty((m, 3))
-        hi = np.empty((m, 3))
-        for ax in range(3):
-            c = np.ascontiguousarray(P[:, ax])
-            c0, c1, c2 = c.take(cols[0]), c.take(cols[1]), c.take(cols[2])
-            lo[:, ax] = np.minimum(np.minimum(c0, c1), c2)
-            hi[:, ax] = np.maximum(np.maximum(c0, c1), c2)
-        pairs = grid_candidate_pairs(lo, hi, cell_scale)
-    a, b = pairs
+def _pair_segments(fr: _Frame, topo: MeshTopology, a: np.ndarray, b: np.ndarray):
+    """The double-curve segments of candidate pairs (a, b) (box pairs, a < b): (segment
+    event keys (S, 2), endpoints (S, 2, 3), faces (S, 2), pairs left once neighbours are
+    dropped, degenerate pairs). Row by row, so the pairs can be split and the parts joined."""
+    faces, m = fr.faces, fr.faces.shape[0]
     # drop pairs sharing a vertex (an edge shares two): neighbours always touch
     cols32 = topo.corner_columns_int32
     fa = [c.take(a) for c in cols32]
@@ -424,7 +312,65 @@ def self_intersections(
     seg_keys[flip] = seg_keys[flip][:, ::-1]
     seg_pts[flip] = seg_pts[flip][:, ::-1]
     seg_faces = np.stack([a[good], b[good]], axis=1)
+    return seg_keys, seg_pts, seg_faces, n_candidates, degenerate
 
+
+def self_intersections(
+    positions: np.ndarray,
+    topo: MeshTopology,
+    use_mathutils: bool = False,
+    cell_scale: float = 1.5,
+    threads: int = 1,
+) -> IntersectionResult:
+    """Double curves and triple points of one frame.
+
+    positions : (V, 3) float; topo : the mesh topology (faces (M, 3)).
+    use_mathutils : take the broad phase from Blender's BVH overlap when importable.
+    threads : the pair search and the exact tests run on that many threads, over parts of
+    the grid (whole cell ranges); the result is the same, bit for bit, for any count.
+    """
+    if isinstance(threads, bool) or not isinstance(threads, int | np.integer) or threads < 1:
+        raise ValueError(f"threads must be an integer >= 1, got {threads!r}")
+    P = np.asarray(positions, np.float64)
+    faces = topo.faces.astype(np.int64)
+    m = faces.shape[0]
+    fr = _Frame(P, faces)
+    pairs = _mathutils_pairs(P, faces) if use_mathutils else None
+    broad = "mathutils" if pairs is not None else "grid"
+    if pairs is not None:
+        a, b = pairs
+        cuts = np.linspace(0, a.size, PARTS_PER_THREAD * threads + 1).astype(np.int64)
+        jobs = [lambda i=i, j=j: (a[i:j], b[i:j]) for i, j in zip(cuts[:-1], cuts[1:], strict=True)]
+    elif m < 2:
+        jobs = [lambda: (np.zeros(0, np.int64), np.zeros(0, np.int64))]
+    else:
+        cols = topo.corner_columns
+        lo = np.empty((m, 3))
+        hi = np.empty((m, 3))
+        for ax in range(3):
+            c = np.ascontiguousarray(P[:, ax])
+            c0, c1, c2 = c.take(cols[0]), c.take(cols[1]), c.take(cols[2])
+            lo[:, ax] = np.minimum(np.minimum(c0, c1), c2)
+            hi[:, ax] = np.maximum(np.maximum(c0, c1), c2)
+        grid = grid_entries(lo, hi, cell_scale)
+        parts = grid.parts(1 if threads == 1 else PARTS_PER_THREAD * threads)
+        jobs = [lambda sel=sel: entry_pairs(grid, sel) for sel in parts]
+
+    def work(job):
+        return _pair_segments(fr, topo, *job())
+
+    if threads == 1 or len(jobs) == 1:
+        done = [work(job) for job in jobs]
+    else:
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            done = list(pool.map(work, jobs))
+    seg_keys = np.concatenate([d[0] for d in done])
+    seg_pts = np.concatenate([d[1] for d in done])
+    seg_faces = np.concatenate([d[2] for d in done])
+    n_candidates = sum(d[3] for d in done)
+    degenerate = sum(d[4] for d in done)
     curves, closed = _chain(seg_keys)
     tp, tf, td, tc, tsets = _triple_points(fr, seg_pts, seg_faces, topo)
     return IntersectionResult(
@@ -519,7 +465,7 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     partner_keys = np.sort(owner * m + other)
     fa = seg_faces[:, 0]
     cnt = starts[fa + 1] - starts[fa]
-    seg_id, local = _expand_ranges(cnt)
+    seg_id, local = expand_ranges(cnt)
     c = other[starts[fa[seg_id]] + local]
     k = seg_faces[seg_id, 1] * m + c
     pos = np.minimum(np.searchsorted(partner_keys, k), partner_keys.size - 1)
