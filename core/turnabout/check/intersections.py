@@ -369,10 +369,10 @@ def self_intersections(
     seg_keys = np.concatenate([d[0] for d in done])
     seg_pts = np.concatenate([d[1] for d in done])
     seg_faces = np.concatenate([d[2] for d in done])
-    n_candidates = sum(d[3] for d in done)
-    degenerate = sum(d[4] for d in done)
     curves, closed = _chain(seg_keys)
     tp, tf, td, tc, tsets = _triple_points(fr, seg_pts, seg_faces, topo)
+    n_candidates = sum(d[3] for d in done)
+    degenerate = sum(d[4] for d in done)
     return IntersectionResult(
         segments=seg_pts,
         segment_faces=seg_faces,
@@ -410,6 +410,7 @@ def _chain(seg_keys: np.ndarray) -> tuple[list[np.ndarray], list[bool]]:
     nbr[e1] = e2 // 2  # end slot -> neighbouring segment
     nbr[e2] = e1 // 2
     nb = nbr.reshape(s, 2).tolist()
+    linked = (nbr.reshape(s, 2) >= 0).all(axis=1)  # a neighbour at both ends
     seen = bytearray(s)
     curves: list[np.ndarray] = []
     closed: list[bool] = []
@@ -433,9 +434,9 @@ def _chain(seg_keys: np.ndarray) -> tuple[list[np.ndarray], list[bool]]:
         n0, n1 = nb[start]
         forward = walk(n1, start)
         backward = walk(n0, start)
-        ids = backward[::-1] + [start] + forward
-        curves.append(np.array(ids, np.int64))
-        closed.append(len(ids) > 2 and all(nb[i][0] >= 0 and nb[i][1] >= 0 for i in ids))
+        ids = np.array(backward[::-1] + [start] + forward, np.int64)
+        curves.append(ids)
+        closed.append(ids.size > 2 and bool(linked[ids].all()))
     return curves, closed
 
 
