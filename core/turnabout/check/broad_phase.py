@@ -131,19 +131,27 @@ def entry_pairs(g: GridEntries, sel: np.ndarray | None = None):
     del order, key
     stop = np.searchsorted(sweep, query, side="right")
     del sweep, query
-    first, off = expand_ranges(np.maximum(stop - np.arange(n) - 1, 0))
-    second = first + 1 + off
-    del off, stop
+    # every entry against the later entries of its cell up to its last x partner, as
+    # (first, second) entry positions (int32 while they fit: half the memory traffic)
+    counts = np.maximum(stop - np.arange(n) - 1, 0)
+    total = int(counts.sum())
+    it = np.int32 if max(total, n) < 2**31 else np.int64
+    first = np.repeat(np.arange(n, dtype=it), counts)
+    second = np.repeat((np.arange(n) + 1 - (np.cumsum(counts) - counts)).astype(it), counts)
+    second += np.arange(total, dtype=it)
+    del counts, stop
     home = (mask.take(first) | mask.take(second)) == 7
-    a, b = tri.take(first[home]), tri.take(second[home])
-    del first, second, home
-    for ax in (1, 2, 0):  # x last: the sweep only missed pairs tied after rounding
-        lo_ax = np.ascontiguousarray(g.lo32[:, ax])
-        hi_ax = np.ascontiguousarray(g.hi32[:, ax])
-        ok = lo_ax.take(a) <= hi_ax.take(b)
-        ok &= lo_ax.take(b) <= hi_ax.take(a)
-        a, b = a[ok], b[ok]
-    a, b = a.astype(np.int64), b.astype(np.int64)
+    first, second = first[home], second[home]
+    del home
+    # the boxes' other axes, from values laid out in entry order (neighbouring entries are
+    # neighbours in memory); x last: the sweep only missed pairs tied after rounding
+    for ax in (1, 2, 0):
+        lo_e = g.lo32[:, ax].take(tri)
+        hi_e = g.hi32[:, ax].take(tri)
+        ok = lo_e.take(first) <= hi_e.take(second)
+        ok &= lo_e.take(second) <= hi_e.take(first)
+        first, second = first[ok], second[ok]
+    a, b = tri.take(first).astype(np.int64), tri.take(second).astype(np.int64)
     swap = a > b
     return np.where(swap, b, a), np.where(swap, a, b)
 

@@ -149,6 +149,20 @@ class _Frame:
         self.normal = np.cross(p1 - p0, p2 - p0)
         self.corners = np.stack([p0, p1, p2], axis=1)  # (M, 3, 3): one row gather per pair
         self.plane = np.concatenate([p0, self.normal], axis=1)  # (M, 6): p0, normal
+        # the same numbers as contiguous columns, for gathers one coordinate at a time:
+        # corner_cols[c][i] the coordinate i of corner c, plane_cols p0 x, y, z, normal x, y, z
+        self.corner_cols = [[np.ascontiguousarray(self.corners[:, c, i]) for i in range(3)]
+                            for c in range(3)]  # fmt: skip
+        self.plane_cols = [np.ascontiguousarray(self.plane[:, i]) for i in range(6)]
+
+    def corner_values(self, s: np.ndarray, t: np.ndarray) -> list[np.ndarray]:
+        """plane_value(t, corner c of s) for c = 0, 1, 2: three (K,) float64, the very numbers
+        plane_value gives (the same operations in the same order), from 1-D gathers."""
+        px, py, pz, nx, ny, nz = (col.take(t) for col in self.plane_cols)
+        out = []
+        for cx, cy, cz in self.corner_cols:
+            out.append(nx * (cx.take(s) - px) + ny * (cy.take(s) - py) + nz * (cz.take(s) - pz))
+        return out
 
     def plane_value(self, t: np.ndarray, x: np.ndarray) -> np.ndarray:
         """normal_t . (x - p0_t): a deterministic function of (t, x)."""
@@ -236,15 +250,10 @@ def _edge_events(
     return hit, point
 
 
-def _plane_values(fr: _Frame, t: np.ndarray, corners: np.ndarray) -> np.ndarray:
-    """plane_value(t, x) at three points per row: corners (K, 3, 3) -> (K, 3) float64.
-
-    The same operations in the same order as _Frame.plane_value, so the same numbers.
-    """
-    pl = fr.plane[t]
-    d = corners - pl[:, None, :3]
-    n = pl[:, None, 3:]
-    return n[..., 0] * d[..., 0] + n[..., 1] * d[..., 1] + n[..., 2] * d[..., 2]
+def _straddles(v: list[np.ndarray]) -> np.ndarray:
+    """Are the three values not all of one sign (zero counted positive, as _sign)?"""
+    neg = [x < 0 for x in v]
+    return (neg[0] | neg[1] | neg[2]) & ~(neg[0] & neg[1] & neg[2])
 
 
 # --------------------------------------------------------------------------- main
@@ -273,20 +282,17 @@ def _pair_segments(fr: _Frame, topo: MeshTopology, a: np.ndarray, b: np.ndarray)
     # plane straddling: two triangles can cross only where each has vertices on both sides
     # of the other's plane (an edge of one piercing the other puts a point of the other on
     # the first one's plane). Tested one direction at a time, on the survivors of the
-    # first; the plane values are kept for the event tests.
-    ids_a = faces[a]
-    corners_a = fr.corners[a]  # (K, 3, 3)
-    val_a = _plane_values(fr, b, corners_a)  # a's vertices against b's plane
-    sa = _sign(val_a)
-    keep = sa.min(axis=1) != sa.max(axis=1)
-    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
-    ids_b = faces[b]
-    corners_b = fr.corners[b]
-    val_b = _plane_values(fr, a, corners_b)
-    sb = _sign(val_b)
-    keep = sb.min(axis=1) != sb.max(axis=1)
-    a, b, ids_a, corners_a, val_a = a[keep], b[keep], ids_a[keep], corners_a[keep], val_a[keep]
-    ids_b, corners_b, val_b = ids_b[keep], corners_b[keep], val_b[keep]
+    # first, from 1-D gathers; the plane values are kept for the event tests.
+    va = fr.corner_values(a, b)  # a's vertices against b's plane
+    keep = _straddles(va)
+    a, b, va = a[keep], b[keep], [v[keep] for v in va]
+    vb = fr.corner_values(b, a)
+    keep = _straddles(vb)
+    a, b = a[keep], b[keep]
+    val_a = np.stack([v[keep] for v in va], axis=1)
+    val_b = np.stack([v[keep] for v in vb], axis=1)
+    ids_a, corners_a = faces[a], fr.corners[a]
+    ids_b, corners_b = faces[b], fr.corners[b]
     k = a.size
     # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
     hits = np.zeros((k, 6), bool)
