@@ -258,7 +258,7 @@ def _straddles(v: list[np.ndarray]) -> np.ndarray:
 
 # --------------------------------------------------------------------------- main
 
-PARTS_PER_THREAD = 4  # grid parts per thread: mid-motion frames crowd a few cell ranges
+PARTS_PER_THREAD = 2  # grid parts per thread: mid-motion frames crowd a few cell ranges
 
 
 def _pair_segments(fr: _Frame, topo: MeshTopology, a: np.ndarray, b: np.ndarray):
@@ -509,39 +509,46 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     # (720 of them at mid-motion in the default eversion). So the radius is 1 % of the
     # local edge length.
     edge = np.sqrt(np.linalg.norm(fr.normal[trip[:, 2]], axis=1))
-    centers, faces3, counts, group = _merge_points(pts, trip, edge * TRIPLE_MERGE)
     # the same detections grouped to rounding: a merged point's largest such group says how
     # many sheets really share one point (several distinct triple points crowded inside the
     # merge radius give groups of 3)
-    tight, tight_counts = _point_groups(pts, edge * COINCIDENT)
+    merged, (tight, tight_counts) = _point_groups(pts, edge * TRIPLE_MERGE, edge * COINCIDENT)
+    centers, faces3, counts, group = _merge_points(pts, trip, merged)
     coincident = np.zeros(counts.size, np.int64)
     np.maximum.at(coincident, group, tight_counts[tight])
     face_sets = np.unique(np.sort(trip.astype(np.int64), axis=1), axis=0)
     return centers, faces3, counts, coincident, face_sets
 
 
-def _point_groups(pts: np.ndarray, r: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Groups of points linked by distances <= either point's radius r (n,): the group of
-    each point (n,) int64 and each group's size (G,) int64, groups in order of their lowest
-    point. Neighbours come from the grid broad phase and groups from label propagation, so
+def _point_groups(pts: np.ndarray, *radii: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+    """Groups of points linked by distances <= either point's radius r (n,), for each of
+    ``radii`` (largest first, each no larger than the one before at every point): per radius
+    the group of each point (n,) int64 and each group's size (G,) int64, groups in order of
+    their lowest point. Neighbours come from the grid broad phase (once, for the largest
+    radius: the others' neighbours are among them) and groups from label propagation, so
     the cost grows with n, not n^2."""
     n = pts.shape[0]
-    r = np.asarray(r, np.float64)
+    r = np.asarray(radii[0], np.float64)
     a, b = grid_candidate_pairs(pts - r[:, None], pts + r[:, None])
-    near = np.linalg.norm(pts[a] - pts[b], axis=1) <= np.maximum(r[a], r[b])
-    label = component_labels(n, a[near], b[near])
-    _, group, counts = np.unique(label, return_inverse=True, return_counts=True)
-    return group.ravel().astype(np.int64), counts.astype(np.int64)
+    dist = np.linalg.norm(pts[a] - pts[b], axis=1)
+    out = []
+    for rk in radii:
+        rk = np.asarray(rk, np.float64)
+        near = dist <= np.maximum(rk[a], rk[b])
+        label = component_labels(n, a[near], b[near])
+        _, group, counts = np.unique(label, return_inverse=True, return_counts=True)
+        out.append((group.ravel().astype(np.int64), counts.astype(np.int64)))
+    return out
 
 
-def _merge_points(pts: np.ndarray, trip: np.ndarray, scale: np.ndarray):
-    """Merge detections closer than ``scale`` (either point's) into one point each.
+def _merge_points(pts: np.ndarray, trip: np.ndarray, groups: tuple[np.ndarray, np.ndarray]):
+    """Merge each group of detections (_point_groups at the merge radius) into one point.
 
     Returns (centres (G, 3), one face triple per point (G, 3), detections per point (G,),
     the point of each detection (n,)), in the order of each group's first detection.
     """
     n = pts.shape[0]
-    group, counts = _point_groups(pts, scale)
+    group, counts = groups
     centers = np.zeros((counts.size, 3))
     np.add.at(centers, group, pts)
     centers /= counts[:, None]
