@@ -337,6 +337,16 @@ def self_intersections(
     """
     if isinstance(threads, bool) or not isinstance(threads, int | np.integer) or threads < 1:
         raise ValueError(f"threads must be an integer >= 1, got {threads!r}")
+    if threads == 1:
+        return _self_intersections(positions, topo, use_mathutils, cell_scale, 1, map)
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        return _self_intersections(positions, topo, use_mathutils, cell_scale, threads, pool.map)
+
+
+def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell_scale: float,
+                        threads: int, map_fn) -> IntersectionResult:  # fmt: skip
     P = np.asarray(positions, np.float64)
     faces = topo.faces.astype(np.int64)
     m = faces.shape[0]
@@ -362,16 +372,7 @@ def self_intersections(
         parts = grid.parts(1 if threads == 1 else PARTS_PER_THREAD * threads)
         jobs = [lambda sel=sel: entry_pairs(grid, sel) for sel in parts]
 
-    def work(job):
-        return _pair_segments(fr, topo, *job())
-
-    if threads == 1 or len(jobs) == 1:
-        done = [work(job) for job in jobs]
-    else:
-        from concurrent.futures import ThreadPoolExecutor
-
-        with ThreadPoolExecutor(max_workers=threads) as pool:
-            done = list(pool.map(work, jobs))
+    done = list(map_fn(lambda job: _pair_segments(fr, topo, *job()), jobs))
     seg_keys = np.concatenate([d[0] for d in done])
     seg_pts = np.concatenate([d[1] for d in done])
     seg_faces = np.concatenate([d[2] for d in done])
