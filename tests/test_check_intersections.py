@@ -359,3 +359,81 @@ def test_fast_path_matches_brute_force_on_an_eversion_frame_region():
     crop_faces = inverse.reshape(-1, 3)
     assert 1000 < crop_faces.shape[0] < 4000
     assert _assert_same_as_brute_force(P[used], crop_faces) > 100
+
+
+def _chain_reference(seg_keys: np.ndarray):
+    """The chaining written as a walk, one segment at a time (the order chain_segments
+    documents): a reference for the vectorised one."""
+    s = seg_keys.shape[0]
+    if s == 0:
+        return [], []
+    flat = seg_keys.ravel()
+    order = np.argsort(flat, kind="stable")
+    sk = flat[order]
+    # each key normally appears exactly twice (two pairs share an event)
+    nbr = -np.ones(2 * s, np.int64)
+    same = np.flatnonzero(sk[1:] == sk[:-1])
+    # only match keys that appear exactly twice
+    if same.size:
+        cnt_ok = np.ones(same.size, bool)
+        cnt_ok &= ~np.isin(same - 1, same)
+        cnt_ok &= ~np.isin(same + 1, same)
+        same = same[cnt_ok]
+    e1, e2 = order[same], order[same + 1]
+    nbr[e1] = e2 // 2  # end slot -> neighbouring segment
+    nbr[e2] = e1 // 2
+    nb = nbr.reshape(s, 2).tolist()
+    linked = (nbr.reshape(s, 2) >= 0).all(axis=1)  # a neighbour at both ends
+    seen = bytearray(s)
+    curves: list[np.ndarray] = []
+    closed: list[bool] = []
+
+    def walk(prev: int, cur: int) -> list[int]:
+        """Segments after ``cur``, walking away from ``prev``."""
+        out: list[int] = []
+        while True:
+            n0, n1 = nb[cur]
+            nxt = n1 if n0 == prev else n0
+            if nxt < 0 or seen[nxt]:
+                return out
+            seen[nxt] = 1
+            out.append(nxt)
+            prev, cur = cur, nxt
+
+    for start in range(s):
+        if seen[start]:
+            continue
+        seen[start] = 1
+        n0, n1 = nb[start]
+        forward = walk(n1, start)
+        backward = walk(n0, start)
+        ids = np.array(backward[::-1] + [start] + forward, np.int64)
+        curves.append(ids)
+        closed.append(ids.size > 2 and bool(linked[ids].all()))
+    return curves, closed
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_vectorised_chaining_matches_a_walk_one_segment_at_a_time(seed):
+    # random keys: paths, cycles, keys seen once (free ends) or three times (unlinked), two
+    # segments sharing both keys, and a segment whose two keys are equal
+    from turnabout.check.chains import chain_segments
+
+    rng = np.random.default_rng(seed)
+    for _ in range(400):
+        n = int(rng.integers(1, 60))
+        nk = int(rng.integers(1, 2 * n + 3))
+        keys = rng.integers(0, nk, (n, 2))
+        if rng.random() < 0.9:
+            keys[:, 1] = np.where(keys[:, 1] == keys[:, 0], keys[:, 1] + nk, keys[:, 1])
+        curves, closed = chain_segments(keys)
+        want, want_closed = _chain_reference(keys)
+        assert closed == want_closed
+        assert [c.tolist() for c in curves] == [c.tolist() for c in want]
+    # one long cycle and one long path: a single curve each, in walk order
+    ring = np.column_stack([np.arange(1000), (np.arange(1000) + 1) % 1000])
+    (c,), (cl,) = chain_segments(ring[rng.permutation(1000)])
+    assert cl and c.size == 1000
+    path = np.column_stack([np.arange(999), np.arange(1, 1000)])
+    (c,), (cl,) = chain_segments(path)
+    assert not cl and sorted(c.tolist()) == list(range(999))

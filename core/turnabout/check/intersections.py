@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .broad_phase import entry_pairs, expand_ranges, grid_candidate_pairs, grid_entries
+from .chains import chain_segments
 from .topology import MeshTopology, component_labels
 
 __all__ = ["IntersectionResult", "grid_candidate_pairs", "self_intersections"]
@@ -376,7 +377,7 @@ def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell
     seg_keys = np.concatenate([d[0] for d in done])
     seg_pts = np.concatenate([d[1] for d in done])
     seg_faces = np.concatenate([d[2] for d in done])
-    curves, closed = _chain(seg_keys)
+    curves, closed = chain_segments(seg_keys)
     tp, tf, td, tc, tsets = _triple_points(fr, seg_pts, seg_faces, topo)
     n_candidates = sum(d[3] for d in done)
     degenerate = sum(d[4] for d in done)
@@ -394,57 +395,6 @@ def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell
         candidate_pairs=n_candidates,
         broad_phase=broad,
     )
-
-
-def _chain(seg_keys: np.ndarray) -> tuple[list[np.ndarray], list[bool]]:
-    """Chain segments that share an event key: (curves as ordered segment ids, closed flags)."""
-    s = seg_keys.shape[0]
-    if s == 0:
-        return [], []
-    flat = seg_keys.ravel()
-    order = np.argsort(flat, kind="stable")
-    sk = flat[order]
-    # each key normally appears exactly twice (two pairs share an event)
-    nbr = -np.ones(2 * s, np.int64)
-    same = np.flatnonzero(sk[1:] == sk[:-1])
-    # only match keys that appear exactly twice
-    if same.size:
-        cnt_ok = np.ones(same.size, bool)
-        cnt_ok &= ~np.isin(same - 1, same)
-        cnt_ok &= ~np.isin(same + 1, same)
-        same = same[cnt_ok]
-    e1, e2 = order[same], order[same + 1]
-    nbr[e1] = e2 // 2  # end slot -> neighbouring segment
-    nbr[e2] = e1 // 2
-    nb = nbr.reshape(s, 2).tolist()
-    linked = (nbr.reshape(s, 2) >= 0).all(axis=1)  # a neighbour at both ends
-    seen = bytearray(s)
-    curves: list[np.ndarray] = []
-    closed: list[bool] = []
-
-    def walk(prev: int, cur: int) -> list[int]:
-        """Segments after ``cur``, walking away from ``prev``."""
-        out: list[int] = []
-        while True:
-            n0, n1 = nb[cur]
-            nxt = n1 if n0 == prev else n0
-            if nxt < 0 or seen[nxt]:
-                return out
-            seen[nxt] = 1
-            out.append(nxt)
-            prev, cur = cur, nxt
-
-    for start in range(s):
-        if seen[start]:
-            continue
-        seen[start] = 1
-        n0, n1 = nb[start]
-        forward = walk(n1, start)
-        backward = walk(n0, start)
-        ids = np.array(backward[::-1] + [start] + forward, np.int64)
-        curves.append(ids)
-        closed.append(ids.size > 2 and bool(linked[ids].all()))
-    return curves, closed
 
 
 TRIPLE_MERGE = 0.01  # merge radius of triple-point detections, in local edge lengths
