@@ -188,66 +188,60 @@ class _Frame:
         return (signs[0] == signs[1]) & (signs[1] == signs[2])
 
 
-def _inside_line_rows(ids: np.ndarray, corners: np.ndarray, p: np.ndarray, q: np.ndarray):
-    """_Frame.inside_line with the triangles given by rows: the same predicate, same numbers.
+def _inside_line_cols(ids, corners, p, q) -> np.ndarray:
+    """_Frame.inside_line with the triangles given as columns: the same predicate.
 
-    ids : (K, 3) int vertex indices of the triangles; corners : (K, 3, 3) float64 their
-    positions; p, q : (K, 3) float64 the lines' points in canonical order. Returns (K,) bool.
-    Each edge is taken in the triangle's own order: swapping the last two arguments of the
-    orientation determinant negates it exactly in floating point, so only an exact zero
-    needs the canonical order's tie-break (zero counts as positive in low-index-first order).
+    ids : three (K,) int, the triangles' vertex indices; corners : corners[c][x] (K,) float64,
+    coordinate x of corner c; p, q : three (K,) float64 each, the lines' points in canonical
+    order. Returns (K,) bool. Each edge is taken in the triangle's own order: swapping the
+    last two arguments of the orientation determinant negates it exactly in floating point,
+    so only an exact zero needs the canonical order's tie-break (zero counts as positive in
+    low-index-first order).
     """
-    a = q - p
+    a0, a1, a2 = q[0] - p[0], q[1] - p[1], q[2] - p[2]
     signs = []
     for k in range(3):
         kk = (k + 1) % 3
-        b = corners[:, k] - p
-        c = corners[:, kk] - p
-        o = (
-            a[:, 0] * (b[:, 1] * c[:, 2] - b[:, 2] * c[:, 1])
-            + a[:, 1] * (b[:, 2] * c[:, 0] - b[:, 0] * c[:, 2])
-            + a[:, 2] * (b[:, 0] * c[:, 1] - b[:, 1] * c[:, 0])
-        )
+        b0, b1, b2 = corners[k][0] - p[0], corners[k][1] - p[1], corners[k][2] - p[2]
+        c0, c1, c2 = corners[kk][0] - p[0], corners[kk][1] - p[1], corners[kk][2] - p[2]
+        o = a0 * (b1 * c2 - b2 * c1) + a1 * (b2 * c0 - b0 * c2) + a2 * (b0 * c1 - b1 * c0)
         s = np.sign(o).astype(np.int8)
         zero = s == 0
         if zero.any():
-            s[zero] = np.where(ids[zero, k] < ids[zero, kk], 1, -1)
+            s[zero] = np.where(ids[k][zero] < ids[kk][zero], 1, -1)
         signs.append(s)
     return (signs[0] == signs[1]) & (signs[1] == signs[2])
 
 
-def _edge_events(
-    ids: np.ndarray,
-    corners: np.ndarray,
-    values: np.ndarray,
-    k: int,
-    target_ids: np.ndarray,
-    target_corners: np.ndarray,
-):
+def _edge_events(ids, corners, values, k: int, target_ids, target_corners):
     """Does edge k of a triangle pierce the target triangle?  Returns (hit, point).
 
-    ids : (K, 3) int the edge's triangle's vertex indices; corners : (K, 3, 3) float64 their
-    positions; values : (K, 3) float64 the target's plane_value at them (the very numbers
-    plane_value gives, so the two pairs sharing an event agree bit for bit); target_ids,
-    target_corners : the target triangles' rows, same shapes.
+    ids : three (K,) int, the edge's triangle's vertex indices; corners : corners[c][x] (K,)
+    float64 their positions; values : three (K,) float64, the target's plane_value at them
+    (the very numbers plane_value gives, so the two pairs sharing an event agree bit for
+    bit); target_ids, target_corners : the target triangles, same layout.
     hit : (K,) bool; point : (K, 3) float64 where the edge meets the plane (0 if no hit).
     """
     i, j = k, (k + 1) % 3
-    hit = np.zeros(ids.shape[0], bool)
-    point = np.zeros((ids.shape[0], 3))
-    w = np.flatnonzero(_sign(values[:, i]) != _sign(values[:, j]))
+    n = ids[0].size
+    hit = np.zeros(n, bool)
+    point = np.zeros((n, 3))
+    w = np.flatnonzero((values[i] < 0) != (values[j] < 0))  # signs differ (zero positive)
     if w.size == 0:
         return hit, point
-    swap = ids[w, i] > ids[w, j]  # canonical order: the lower vertex index first
-    lo_c = np.where(swap, j, i)
-    hi_c = np.where(swap, i, j)
-    p, q = corners[w, lo_c], corners[w, hi_c]
-    ins = _inside_line_rows(target_ids[w], target_corners[w], p, q)
-    w, p, q, lo_c, hi_c = w[ins], p[ins], q[ins], lo_c[ins], hi_c[ins]
-    op, oq = values[w, lo_c], values[w, hi_c]
+    swap = ids[i][w] > ids[j][w]  # canonical order: the lower vertex index first
+    p = [np.where(swap, corners[j][x][w], corners[i][x][w]) for x in range(3)]
+    q = [np.where(swap, corners[i][x][w], corners[j][x][w]) for x in range(3)]
+    target = [[target_corners[c][x][w] for x in range(3)] for c in range(3)]
+    ins = _inside_line_cols([t[w] for t in target_ids], target, p, q)
+    w, swap = w[ins], swap[ins]
+    p, q = [x[ins] for x in p], [x[ins] for x in q]
+    vi, vj = values[i][w], values[j][w]
+    op, oq = np.where(swap, vj, vi), np.where(swap, vi, vj)
     hit[w] = True
     t = op / (op - oq)
-    point[w] = p + (q - p) * t[:, None]
+    for x in range(3):
+        point[w, x] = p[x] + (q[x] - p[x]) * t
     return hit, point
 
 
@@ -266,7 +260,7 @@ def _pair_segments(fr: _Frame, topo: MeshTopology, a: np.ndarray, b: np.ndarray)
     """The double-curve segments of candidate pairs (a, b) (box pairs, a < b): (segment
     event keys (S, 2), endpoints (S, 2, 3), faces (S, 2), pairs left once neighbours are
     dropped, degenerate pairs). Row by row, so the pairs can be split and the parts joined."""
-    faces, m = fr.faces, fr.faces.shape[0]
+    m = fr.faces.shape[0]
     # drop pairs sharing a vertex (an edge shares two): neighbours always touch
     cols32 = topo.corner_columns_int32
     fa = [c.take(a) for c in cols32]
@@ -290,10 +284,11 @@ def _pair_segments(fr: _Frame, topo: MeshTopology, a: np.ndarray, b: np.ndarray)
     vb = fr.corner_values(b, a)
     keep = _straddles(vb)
     a, b = a[keep], b[keep]
-    val_a = np.stack([v[keep] for v in va], axis=1)
-    val_b = np.stack([v[keep] for v in vb], axis=1)
-    ids_a, corners_a = faces[a], fr.corners[a]
-    ids_b, corners_b = faces[b], fr.corners[b]
+    val_a, val_b = [v[keep] for v in va], [v[keep] for v in vb]
+    cols = topo.corner_columns
+    ids_a, ids_b = [c.take(a) for c in cols], [c.take(b) for c in cols]
+    corners_a = [[x.take(a) for x in corner] for corner in fr.corner_cols]
+    corners_b = [[x.take(b) for x in corner] for corner in fr.corner_cols]
     k = a.size
     # six events per pair: edges 0..2 of a through b, edges 0..2 of b through a
     hits = np.zeros((k, 6), bool)
