@@ -72,7 +72,8 @@ def grid_entries(lo: np.ndarray, hi: np.ndarray, cell_scale: float = 1.5) -> Gri
     """The grid's entries for boxes lo, hi (M, 3) float, cells ``cell_scale`` times the mean
     box extent."""
     ext = hi - lo
-    h = float(cell_scale * max(ext.max(axis=1).mean(), _TINY))
+    ext = np.maximum(np.maximum(ext[:, 0], ext[:, 1]), ext[:, 2])
+    h = float(cell_scale * max(ext.mean(), _TINY))
     origin = lo.min(axis=0)
     imin = np.floor((lo - origin) / h).astype(np.int64)
     imax = np.floor((hi - origin) / h).astype(np.int64)

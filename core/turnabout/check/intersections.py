@@ -334,19 +334,37 @@ def self_intersections(
     if isinstance(threads, bool) or not isinstance(threads, int | np.integer) or threads < 1:
         raise ValueError(f"threads must be an integer >= 1, got {threads!r}")
     if threads == 1:
-        return _self_intersections(positions, topo, use_mathutils, cell_scale, 1, map)
+        return _self_intersections(positions, topo, use_mathutils, cell_scale, 1, _Inline())
     from concurrent.futures import ThreadPoolExecutor
 
     with ThreadPoolExecutor(max_workers=threads) as pool:
-        return _self_intersections(positions, topo, use_mathutils, cell_scale, threads, pool.map)
+        return _self_intersections(positions, topo, use_mathutils, cell_scale, threads, pool)
+
+
+class _Done:
+    def __init__(self, value):
+        self._value = value
+
+    def result(self):
+        return self._value
+
+
+class _Inline:
+    """A stand-in for a thread pool that works at once, in the calling thread."""
+
+    map = staticmethod(map)
+
+    @staticmethod
+    def submit(fn, *args):
+        return _Done(fn(*args))
 
 
 def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell_scale: float,
-                        threads: int, map_fn) -> IntersectionResult:  # fmt: skip
+                        threads: int, pool) -> IntersectionResult:  # fmt: skip
     P = np.asarray(positions, np.float64)
     faces = topo.faces.astype(np.int64)
     m = faces.shape[0]
-    fr = _Frame(P, faces)
+    frame = pool.submit(_Frame, P, faces)  # beside the grid
     pairs = _mathutils_pairs(P, faces) if use_mathutils else None
     broad = "mathutils" if pairs is not None else "grid"
     if pairs is not None:
@@ -367,13 +385,14 @@ def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell
         grid = grid_entries(lo, hi, cell_scale)
         parts = grid.parts(1 if threads == 1 else PARTS_PER_THREAD * threads)
         jobs = [lambda sel=sel: entry_pairs(grid, sel) for sel in parts]
-
-    done = list(map_fn(lambda job: _pair_segments(fr, topo, *job()), jobs))
+    fr = frame.result()
+    done = list(pool.map(lambda job: _pair_segments(fr, topo, *job()), jobs))
     seg_keys = np.concatenate([d[0] for d in done])
     seg_pts = np.concatenate([d[1] for d in done])
     seg_faces = np.concatenate([d[2] for d in done])
-    curves, closed = chain_segments(seg_keys)
+    chained = pool.submit(chain_segments, seg_keys)  # beside the triple points
     tp, tf, td, tc, tsets = _triple_points(fr, seg_pts, seg_faces, topo)
+    curves, closed = chained.result()
     n_candidates = sum(d[3] for d in done)
     degenerate = sum(d[4] for d in done)
     return IntersectionResult(
@@ -412,15 +431,19 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     other = np.concatenate([seg_faces[:, 1], seg_faces[:, 0]])
     order = np.argsort(owner, kind="stable")
     owner, other = owner[order], other[order]
-    starts = np.searchsorted(owner, np.arange(m + 1))
+    starts = np.zeros(m + 1, np.int64)
+    np.cumsum(np.bincount(owner, minlength=m), out=starts[1:])
     # a third sheet's triangle c through the segment's point meets both a and b there, so
-    # c is a partner of a that is also a partner of b
+    # c is a partner of a that is also a partner of b: the partners of the one of a, b with
+    # fewer, looked up among the other's
     partner_keys = np.sort(owner * m + other)
-    fa = seg_faces[:, 0]
-    cnt = starts[fa + 1] - starts[fa]
-    seg_id, local = expand_ranges(cnt)
+    deg = np.diff(starts)
+    fewer = np.where(deg[seg_faces[:, 0]] <= deg[seg_faces[:, 1]], 0, 1)
+    fa = seg_faces[np.arange(s), fewer]
+    fb = seg_faces[np.arange(s), 1 - fewer]
+    seg_id, local = expand_ranges(deg[fa])
     c = other[starts[fa[seg_id]] + local]
-    k = seg_faces[seg_id, 1] * m + c
+    k = fb[seg_id] * m + c
     pos = np.minimum(np.searchsorted(partner_keys, k), partner_keys.size - 1)
     pair = np.sort(seg_id[partner_keys[pos] == k] * m + c[partner_keys[pos] == k])
     seg_id, c = pair // m, pair % m
