@@ -217,6 +217,7 @@ class _FrameJob:
     threads: int = 1  # threads of each frame's self-intersection search
 
 
+CHUNKS_PER_WORKER = 32  # frame ranges handed to each worker process (about)
 THREADS = 4  # most threads one frame's self-intersection search uses
 
 
@@ -290,7 +291,9 @@ def _run_frames(job: _FrameJob, workers: int, progress: ProgressFn, client=None,
         raise CheckInputError(f"workers must be an integer >= 1, got {workers!r}")
     if workers == 1 or n < 4 or "fork" not in mp.get_all_start_methods():
         return _judge_range(job, 0, n, progress)
-    chunk = max(2, -(-n // (4 * workers)))
+    # small chunks: the costly mid-motion frames spread over the workers, and the progress
+    # bar moves every few frames rather than once a large share of them
+    chunk = max(2, -(-n // (CHUNKS_PER_WORKER * workers)))
     bounds = [(s, min(s + chunk, n)) for s in range(0, n, chunk)]
     results: dict[int, tuple] = {}
     done = 0
