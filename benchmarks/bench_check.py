@@ -84,14 +84,18 @@ def bench_intersections(repeat: int) -> None:
     print(f"self-intersection: Boy's surface, {f.shape[0]} triangles")
     res = None
 
+    threads = intersection_threads(1)
+
     def ours():
         nonlocal res
-        res = self_intersections(p, topo)
+        res = self_intersections(p, topo, threads=threads)
 
     self_intersections(p, topo)  # warm caches of the topology
     t_ours = best_of(ours, repeat)
+    t_one = best_of(lambda: self_intersections(p, topo), repeat)
     print(
-        f"  numpy grid + exact events: {1000 * t_ours:.1f} ms "
+        f"  numpy grid + exact events on {threads} thread(s): {1000 * t_ours:.1f} ms "
+        f"(1 thread: {1000 * t_one:.1f} ms) "
         f"({res.candidate_pairs} candidate pairs, {res.segments.shape[0]} segments, "
         f"{res.double_curve_count} double curve(s), {res.triple_point_count} triple point(s))"
     )
