@@ -183,7 +183,7 @@ def test_threads_give_the_same_result_bit_for_bit():
     for threads in (2, 3):
         other = self_intersections(P, topo, threads=threads)
         for name in ("segments", "segment_faces", "triple_points", "triple_faces",
-                     "triple_detections", "triple_coincident", "triple_face_sets"):  # fmt: skip
+                     "triple_detections", "triple_coincident"):  # fmt: skip
             x, y = getattr(one, name), getattr(other, name)
             assert x.dtype == y.dtype and np.array_equal(x, y), name
         assert [list(c) for c in one.curves] == [list(c) for c in other.curves]

@@ -48,8 +48,6 @@ class IntersectionResult:
     triple_coincident : (T,) int64 the most of those detections that agree to rounding
         (within COINCIDENT local edge lengths): 3 for a triple point however many distinct
         triple points the merge radius gathered, 12 only where four sheets truly share a point
-    triple_face_sets : (U, 3) int64 the distinct triangle triples of all detections (sorted
-        rows): every triple point's own triangles, also of those merged with a neighbour
     degenerate_pairs : pairs whose event count was not 0 or 2 (touching or coplanar faces)
     candidate_pairs : pairs left after the broad phase
     """
@@ -66,7 +64,6 @@ class IntersectionResult:
     broad_phase: str = "grid"
     extra: dict = field(default_factory=dict)
     triple_coincident: np.ndarray | None = None
-    triple_face_sets: np.ndarray | None = None
 
     @property
     def double_curve_count(self) -> int:
@@ -391,7 +388,7 @@ def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell
     seg_pts = np.concatenate([d[1] for d in done])
     seg_faces = np.concatenate([d[2] for d in done])
     chained = pool.submit(chain_segments, seg_keys)  # beside the triple points
-    tp, tf, td, tc, tsets = _triple_points(fr, seg_pts, seg_faces, topo)
+    tp, tf, td, tc = _triple_points(fr, seg_pts, seg_faces, topo)
     curves, closed = chained.result()
     n_candidates = sum(d[3] for d in done)
     degenerate = sum(d[4] for d in done)
@@ -404,7 +401,6 @@ def _self_intersections(positions, topo: MeshTopology, use_mathutils: bool, cell
         triple_faces=tf,
         triple_detections=td,
         triple_coincident=tc,
-        triple_face_sets=tsets,
         degenerate_pairs=degenerate,
         candidate_pairs=n_candidates,
         broad_phase=broad,
@@ -422,7 +418,7 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     """Segments of sheets (a, b) crossing a triangle c of a third sheet, merged into points."""
     s = seg_pts.shape[0]
     empty = (np.zeros((0, 3)), np.zeros((0, 3), np.int64), np.zeros(0, np.int64),
-             np.zeros(0, np.int64), np.zeros((0, 3), np.int64))  # fmt: skip
+             np.zeros(0, np.int64))  # fmt: skip
     if s == 0:
         return empty
     m = topo.n_faces
@@ -485,8 +481,7 @@ def _triple_points(fr: _Frame, seg_pts: np.ndarray, seg_faces: np.ndarray, topo:
     centers, faces3, counts, group = _merge_points(pts, trip, merged)
     coincident = np.zeros(counts.size, np.int64)
     np.maximum.at(coincident, group, tight_counts[tight])
-    face_sets = np.unique(np.sort(trip.astype(np.int64), axis=1), axis=0)
-    return centers, faces3, counts, coincident, face_sets
+    return centers, faces3, counts, coincident
 
 
 def _point_groups(pts: np.ndarray, *radii: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
